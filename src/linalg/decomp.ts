@@ -6,18 +6,15 @@ import { Matrix, EigenvalueDecomposition, SingularValueDecomposition } from 'ml-
 import { Mat, zeros, transpose } from './dense.js';
 
 export function toMl(m: Mat): Matrix {
-  const out = new Matrix(m.rows, m.cols);
-  for (let i = 0; i < m.rows; i++) {
-    const r = out.data[i]!;
-    for (let j = 0; j < m.cols; j++) r[j] = m.data[i * m.cols + j]!;
-  }
-  return out;
+  const rowsArr: Float64Array[] = [];
+  for (let i = 0; i < m.rows; i++) rowsArr.push(m.data.slice(i * m.cols, (i + 1) * m.cols));
+  return new Matrix(rowsArr as unknown as number[][]);
 }
 
 export function fromMl(m: Matrix): Mat {
   const out = zeros(m.rows, m.columns);
   for (let i = 0; i < m.rows; i++) {
-    const r = m.data[i]!;
+    const r = m.getRow(i);
     for (let j = 0; j < m.columns; j++) out.data[i * m.columns + j] = r[j]!;
   }
   return out;

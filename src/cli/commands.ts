@@ -1,0 +1,8 @@
+/** The registry of commands: one import and one entry per command file. */
+import type { Command } from 'commander';
+import type { Io } from './common.js';
+
+export type Register = (program: Command, io: Io, setExit: (code: number) => void) => void;
+
+export const commands: Register[] = [
+];
