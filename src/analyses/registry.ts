@@ -1,0 +1,8 @@
+/**
+ * The analyses, in the order they run (an analysis may read the outputs of those before it,
+ * named in its `dependsOn`). Adding a question = one file + one line here.
+ */
+import type { Analysis } from './analysis.js';
+
+export const analyses: Analysis<unknown>[] = [
+];
