@@ -1,8 +1,11 @@
 /** The registry of commands: one import and one entry per command file. */
 import type { Command } from 'commander';
 import type { Io } from './common.js';
+import { registerDiagnose, registerRun } from './diagnose.js';
 
 export type Register = (program: Command, io: Io, setExit: (code: number) => void) => void;
 
 export const commands: Register[] = [
+  registerDiagnose,
+  registerRun,
 ];
