@@ -48,19 +48,40 @@ function distance(points: Mat, i: number, other: Mat, k: number): number {
 }
 
 /**
- * Entry noise std of G from mixed differences D = G(i,k) − G(i',k) − G(i,k') + G(i',k')
- * (i', k' nearest neighbours): smooth parts cancel to O(h²), iid noise gives std 2σ.
- * Entries within two spacings of the diagonal are skipped (the kink there is signal).
- * σ = median|D| / (2 · 0.6745) — the MAD estimator of a Gaussian scale (Hampel 1974).
+ * Entry noise std of G, by the MAD estimator of a Gaussian scale (Hampel 1974) applied to
+ * high-order differences in which the smooth part of G cancels:
+ *  - 1-D: fourth differences along x over the sorted output points, D = Δ⁴G (iid noise gives std √70·σ;
+ *    a smooth part contributes O(h⁴ ∂⁴G));
+ *  - 2-D: mixed differences D = G(i,k) − G(i',k) − G(i,k') + G(i',k') over nearest neighbours (std 2σ).
+ * Stencils within a few spacings of the diagonal are skipped: the kink there is signal, not noise.
  */
 export function entryNoiseStd(kernel: Kernel): number {
   const { G, pointsOut, pointsIn } = kernel;
   const cIn = kernel.components.in, cOut = kernel.components.out;
-  const nOut = pointsOut.rows, nIn = pointsIn.rows;
-  const nnOut = nearestNeighbours(pointsOut), nnIn = nearestNeighbours(pointsIn);
+  const nOut = pointsOut.rows, nIn = pointsIn.rows, C = G.cols;
+  const nnIn = nearestNeighbours(pointsIn);
   const spacing = median(Array.from({ length: nIn }, (_, k) => (nnIn[k]! >= 0 ? distance(pointsIn, k, pointsIn, nnIn[k]!) : 0)));
   const stride = Math.max(1, Math.floor(Math.sqrt((nOut * nIn) / 40000)));
   const diffs: number[] = [];
+  if (kernel.dimension === 1 && nOut >= 5) {
+    const order = Array.from({ length: nOut }, (_, i) => i).sort((a, b) => pointsOut.data[a]! - pointsOut.data[b]!);
+    const w = [1, -4, 6, -4, 1];
+    for (let bo = 0; bo < cOut; bo++) for (let bi = 0; bi < cIn; bi++) {
+      for (let r = 0; r + 4 < nOut; r += stride) {
+        const rowsIdx = order.slice(r, r + 5);
+        const lo = pointsOut.data[rowsIdx[0]!]!, hi = pointsOut.data[rowsIdx[4]!]!;
+        for (let k = r % stride; k < nIn; k += stride) {
+          const s = pointsIn.data[k]!;
+          if (s > lo - 1.5 * spacing && s < hi + 1.5 * spacing) continue;
+          let d = 0;
+          for (let t = 0; t < 5; t++) d += w[t]! * G.data[(bo * nOut + rowsIdx[t]!) * C + bi * nIn + k]!;
+          diffs.push(Math.abs(d) / Math.sqrt(70));
+        }
+      }
+    }
+    return median(diffs) / 0.6745;
+  }
+  const nnOut = nearestNeighbours(pointsOut);
   for (let bo = 0; bo < cOut; bo++) for (let bi = 0; bi < cIn; bi++) {
     for (let i = 0; i < nOut; i += stride) {
       const i2 = nnOut[i]!;
@@ -69,13 +90,13 @@ export function entryNoiseStd(kernel: Kernel): number {
         const k2 = nnIn[k]!;
         if (k2 < 0) continue;
         if (distance(pointsOut, i, pointsIn, k) < 2.5 * spacing || distance(pointsOut, i2, pointsIn, k2) < 2.5 * spacing) continue;
-        const r = (bo * nOut), c = (bi * nIn), C = G.cols;
+        const r = bo * nOut, c = bi * nIn;
         const d = G.data[(r + i) * C + c + k]! - G.data[(r + i2) * C + c + k]! - G.data[(r + i) * C + c + k2]! + G.data[(r + i2) * C + c + k2]!;
-        diffs.push(Math.abs(d));
+        diffs.push(Math.abs(d) / 2);
       }
     }
   }
-  return median(diffs) / (2 * 0.6745);
+  return median(diffs) / 0.6745;
 }
 
 function vectorNoiseStd(h: Float64Array, points: Mat, components: number): number {
