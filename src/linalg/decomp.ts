@@ -168,3 +168,11 @@ export function takeCols(m: Mat, k: number): Mat {
   for (let i = 0; i < m.rows; i++) for (let j = 0; j < k; j++) out.data[i * k + j] = m.data[i * m.cols + j]!;
   return out;
 }
+
+/** Eigenvalues of a general real square matrix (Hessenberg reduction + real Schur QR, via ml-matrix); complex pairs as (re, im). */
+export function eigGeneral(a: Mat): { re: Float64Array; im: Float64Array } {
+  if (a.cols !== a.rows) throw new Error('eigGeneral: matrix not square');
+  if (a.rows === 0) return { re: new Float64Array(0), im: new Float64Array(0) };
+  const e = new EigenvalueDecomposition(toMl(a), { assumeSymmetric: false });
+  return { re: Float64Array.from(e.realEigenvalues), im: Float64Array.from(e.imaginaryEigenvalues) };
+}
