@@ -1,0 +1,339 @@
+/**
+ * AAA rational approximation of real data on real sample points, with poles, zeros, residues
+ * and removal of spurious pole–zero pairs (Froissart doublets).
+ *
+ * // AAA: Nakatsukasa, Sète & Trefethen, "The AAA algorithm for rational approximation", SIAM J. Sci. Comput. 40 (2018) A1494–A1522.
+ *
+ * The approximant is kept in barycentric form
+ *     r(x) = Σ_j w_j f_j / (x − z_j)  /  Σ_j w_j / (x − z_j)
+ * with support points z_j chosen greedily where the current error is largest, and weights w
+ * the smallest right singular vector of the Loewner matrix A_ij = (F_i − f_j)/(Z_i − z_j) over
+ * the remaining sample points. With m support points the type is (m−1, m−1).
+ *
+ * Poles are the finite eigenvalues of the arrowhead pencil (E, B), E = [0 wᵀ; 1 diag(z)],
+ * B = diag(0, 1, …, 1) (§3 of the paper). We reduce it exactly to a standard (m−1)×(m−1)
+ * eigenproblem on the complement of w (see `arrowheadEigenvalues`), then use a real
+ * Hessenberg–QR eigensolver (complex pairs included). Pure module: no I/O.
+ */
+import { zeros as matZeros, type Mat } from '../linalg/dense.js';
+import { svd, eigGeneral } from '../linalg/decomp.js';
+
+export interface Barycentric {
+  /** support points z_j */
+  support: Float64Array;
+  /** data values f_j at the support points */
+  values: Float64Array;
+  /** barycentric weights w_j (unit 2-norm) */
+  weights: Float64Array;
+}
+
+export interface AaaResult extends Barycentric {
+  /** max |f − r| over the samples after each greedy step (length = number of steps taken) */
+  errors: Float64Array;
+  /** number of Froissart doublets removed by the cleanup */
+  removed: number;
+}
+
+export interface AaaOptions {
+  /** stop when max|f − r| ≤ tol · max|f| (default eps^(3/4), as in the paper's software) */
+  tol?: number;
+  /** maximum number of support points (default 100) */
+  maxTerms?: number;
+  /** remove Froissart doublets (default true) */
+  cleanup?: boolean;
+  /** a pole is spurious when |residue| / dist(pole, samples) < cleanupTol · geomean|f| (default 1e-13) */
+  cleanupTol?: number;
+}
+
+/** Complex numbers as parallel arrays. */
+export interface ComplexArray { re: Float64Array; im: Float64Array }
+
+const EPS = 2.220446049250313e-16;
+
+function validate(z: ArrayLike<number>, f: ArrayLike<number>): void {
+  if (z.length !== f.length) throw new Error(`aaa: ${z.length} sample points but ${f.length} values`);
+  if (z.length === 0) throw new Error('aaa: no sample points');
+  for (let i = 0; i < z.length; i++) {
+    if (!Number.isFinite(z[i]!)) throw new Error(`aaa: sample point ${i} is not finite (${z[i]})`);
+    if (!Number.isFinite(f[i]!)) throw new Error(`aaa: value ${i} is not finite (${f[i]}); remove unmeasured samples first`);
+  }
+  const s = Array.from(z).sort((a, b) => a - b);
+  for (let i = 1; i < s.length; i++) if (s[i] === s[i - 1]) throw new Error(`aaa: repeated sample point ${s[i]}`);
+}
+
+/**
+ * Weights = right singular vector of the smallest singular value of the Loewner matrix
+ * (rows = non-support samples, columns = support points). Householder QR first, then the
+ * SVD of the small triangular factor, so a tall matrix costs O(rows · m²).
+ */
+function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: Float64Array): Float64Array {
+  const M = Z.length, m = zs.length;
+  if (m === 1) return Float64Array.of(1);
+  if (M < m) {
+    // fewer equations than unknowns: any null vector; use the SVD of the square-padded matrix
+    const A = matZeros(m, m);
+    for (let i = 0; i < M; i++) for (let j = 0; j < m; j++) A.data[i * m + j] = (F[i]! - fs[j]!) / (Z[i]! - zs[j]!);
+    const d = svd(A);
+    return lastColumn(d.V, d.s);
+  }
+  // column-major working copy for Householder QR
+  const A = new Float64Array(M * m);
+  for (let j = 0; j < m; j++) for (let i = 0; i < M; i++) A[j * M + i] = (F[i]! - fs[j]!) / (Z[i]! - zs[j]!);
+  const R = matZeros(m, m);
+  const v = new Float64Array(M);
+  for (let k = 0; k < m; k++) {
+    const ck = k * M;
+    let nrm = 0;
+    for (let i = k; i < M; i++) nrm += A[ck + i]! * A[ck + i]!;
+    nrm = Math.sqrt(nrm);
+    if (nrm === 0) { continue; }
+    const alpha = A[ck + k]! > 0 ? -nrm : nrm;
+    for (let i = k; i < M; i++) v[i] = A[ck + i]!;
+    v[k] = v[k]! - alpha;
+    let vv = 0;
+    for (let i = k; i < M; i++) vv += v[i]! * v[i]!;
+    A[ck + k] = alpha;
+    for (let i = k + 1; i < M; i++) A[ck + i] = 0;
+    if (vv === 0) continue;
+    for (let j = k + 1; j < m; j++) {
+      const cj = j * M;
+      let dot = 0;
+      for (let i = k; i < M; i++) dot += v[i]! * A[cj + i]!;
+      const t = (2 * dot) / vv;
+      for (let i = k; i < M; i++) A[cj + i] = A[cj + i]! - t * v[i]!;
+    }
+  }
+  for (let i = 0; i < m; i++) for (let j = i; j < m; j++) R.data[i * m + j] = A[j * M + i]!;
+  const d = svd(R);
+  return lastColumn(d.V, d.s);
+}
+
+function lastColumn(V: Mat, s: Float64Array): Float64Array {
+  const k = V.cols;
+  let jmin = k - 1;
+  for (let j = 0; j < s.length; j++) if (s[j]! < s[jmin]!) jmin = j;
+  const w = new Float64Array(V.rows);
+  for (let i = 0; i < V.rows; i++) w[i] = V.data[i * k + jmin]!;
+  return w;
+}
+
+/** Evaluate a barycentric rational function at real points (exact values at support points). */
+export function evaluate(r: Barycentric, x: ArrayLike<number>): Float64Array {
+  const out = new Float64Array(x.length);
+  const { support: zs, values: fs, weights: w } = r;
+  for (let i = 0; i < x.length; i++) {
+    const xi = x[i]!;
+    let num = 0, den = 0, hit = -1;
+    for (let j = 0; j < zs.length; j++) {
+      const d = xi - zs[j]!;
+      if (d === 0) { hit = j; break; }
+      const c = w[j]! / d;
+      num += c * fs[j]!;
+      den += c;
+    }
+    out[i] = hit >= 0 ? fs[hit]! : num / den;
+  }
+  return out;
+}
+
+/**
+ * The greedy AAA iteration. `onStep` (if given) sees the approximant after every step — used
+ * for choosing the degree by cross-validation without re-running the iteration.
+ */
+function greedy(z: Float64Array, f: Float64Array, tol: number, maxTerms: number,
+  onStep?: (r: Barycentric, step: number) => void): { r: Barycentric; errors: number[] } {
+  const M = z.length;
+  let fmax = 0, mean = 0;
+  for (let i = 0; i < M; i++) { fmax = Math.max(fmax, Math.abs(f[i]!)); mean += f[i]!; }
+  mean /= M;
+  const atol = tol * fmax;
+  const free = new Uint8Array(M).fill(1);
+  const R = new Float64Array(M).fill(mean);
+  const zs: number[] = [], fs: number[] = [];
+  const errors: number[] = [];
+  let r: Barycentric = { support: new Float64Array(0), values: new Float64Array(0), weights: new Float64Array(0) };
+  const steps = Math.min(maxTerms, M);
+  for (let m = 0; m < steps; m++) {
+    let jj = -1, best = -1;
+    for (let i = 0; i < M; i++) {
+      if (!free[i]) continue;
+      const e = Math.abs(f[i]! - R[i]!);
+      if (e > best) { best = e; jj = i; }
+    }
+    zs.push(z[jj]!); fs.push(f[jj]!); free[jj] = 0;
+    const nFree = M - zs.length;
+    const Z = new Float64Array(nFree), F = new Float64Array(nFree);
+    for (let i = 0, k = 0; i < M; i++) if (free[i]) { Z[k] = z[i]!; F[k] = f[i]!; k++; }
+    const support = Float64Array.from(zs), values = Float64Array.from(fs);
+    const weights = loewnerWeights(Z, F, support, values);
+    r = { support, values, weights };
+    const ev = evaluate(r, z);
+    let err = 0;
+    for (let i = 0; i < M; i++) { R[i] = ev[i]!; err = Math.max(err, Math.abs(f[i]! - ev[i]!)); }
+    errors.push(err);
+    onStep?.(r, m + 1);
+    if (err <= atol) break;
+  }
+  return { r: dropZeroWeights(r), errors };
+}
+
+function dropZeroWeights(r: Barycentric): Barycentric {
+  const keep: number[] = [];
+  for (let j = 0; j < r.weights.length; j++) if (r.weights[j] !== 0) keep.push(j);
+  if (keep.length === r.weights.length) return r;
+  return {
+    support: Float64Array.from(keep, (j) => r.support[j]!),
+    values: Float64Array.from(keep, (j) => r.values[j]!),
+    weights: Float64Array.from(keep, (j) => r.weights[j]!),
+  };
+}
+
+/** AAA approximation of f on the real points z. Throws on non-finite input or repeated points. */
+export function aaa(z: ArrayLike<number>, f: ArrayLike<number>, opts: AaaOptions = {}): AaaResult {
+  validate(z, f);
+  const Z = Float64Array.from(z), F = Float64Array.from(f);
+  const tol = opts.tol ?? Math.pow(EPS, 0.75);
+  const maxTerms = opts.maxTerms ?? 100;
+  if (!(maxTerms >= 1)) throw new Error(`aaa: maxTerms must be ≥ 1 (got ${maxTerms})`);
+  const { r, errors } = greedy(Z, F, tol, maxTerms);
+  let out: Barycentric = r, removed = 0;
+  if (opts.cleanup ?? true) ({ r: out, removed } = cleanupDoublets(r, Z, F, opts.cleanupTol ?? 1e-13));
+  return { ...out, errors: Float64Array.from(errors), removed };
+}
+
+/**
+ * All approximants of the greedy sequence, m = 1 … maxTerms support points (no cleanup), for
+ * degree selection. The iteration stops early once the data are matched to `tol`.
+ */
+export function aaaSequence(z: ArrayLike<number>, f: ArrayLike<number>, maxTerms: number, tol = 1e-13): Barycentric[] {
+  validate(z, f);
+  const seq: Barycentric[] = [];
+  greedy(Float64Array.from(z), Float64Array.from(f), tol, maxTerms, (r) => seq.push(r));
+  return seq;
+}
+
+/**
+ * Remove Froissart doublets: for each pole whose residue is negligible (relative to its
+ * distance from the samples and the size of the data), drop the support point nearest to it
+ * and re-solve the least-squares problem for the weights (cleanup step of §5 of the paper;
+ * the criterion is the one scipy.interpolate.AAA uses).
+ */
+export function cleanupDoublets(r: Barycentric, z: Float64Array, f: Float64Array, cleanupTol = 1e-13): { r: Barycentric; removed: number } {
+  if (r.support.length < 2) return { r, removed: 0 };
+  const p = poles(r);
+  const res = residues(r, p);
+  let logsum = 0, nz = 0;
+  for (let i = 0; i < f.length; i++) { const a = Math.abs(f[i]!); if (a > 0) { logsum += Math.log(a); nz++; } }
+  const gmean = nz === f.length ? Math.exp(logsum / nz) : 0; // geometric mean is 0 if any value is 0
+  const drop = new Set<number>();
+  for (let k = 0; k < p.re.length; k++) {
+    let dmin = Infinity;
+    for (let i = 0; i < z.length; i++) dmin = Math.min(dmin, Math.hypot(p.re[k]! - z[i]!, p.im[k]!));
+    const ratio = Math.hypot(res.re[k]!, res.im[k]!) / dmin;
+    if (ratio < cleanupTol * gmean) {
+      let jbest = 0, db = Infinity;
+      for (let j = 0; j < r.support.length; j++) {
+        const d = Math.hypot(r.support[j]! - p.re[k]!, p.im[k]!);
+        if (d < db) { db = d; jbest = j; }
+      }
+      drop.add(jbest);
+    }
+  }
+  if (drop.size === 0) return { r, removed: 0 };
+  const keep = Array.from({ length: r.support.length }, (_, j) => j).filter((j) => !drop.has(j));
+  const support = Float64Array.from(keep, (j) => r.support[j]!);
+  const values = Float64Array.from(keep, (j) => r.values[j]!);
+  const supSet = new Set(Array.from(support));
+  const Z: number[] = [], F: number[] = [];
+  for (let i = 0; i < z.length; i++) if (!supSet.has(z[i]!)) { Z.push(z[i]!); F.push(f[i]!); }
+  const weights = loewnerWeights(Float64Array.from(Z), Float64Array.from(F), support, values);
+  return { r: { support, values, weights }, removed: drop.size };
+}
+
+/**
+ * Finite eigenvalues of the arrowhead pencil E = [0 uᵀ; 1 diag(z)], B = diag(0, I).
+ * With v = (v0, v1): uᵀv1 = 0 and v0·1 + diag(z) v1 = λ v1. Writing v1 = Q y with Q an
+ * orthonormal basis of u⊥ (a Householder reflector) and eliminating v0 = −uᵀ diag(z) Q y / Σu
+ * gives the standard problem H y = λ y, H = Qᵀ D Q − (Qᵀ1)(Qᵀ D u)ᵀ / Σu, exactly.
+ * Points are centred and scaled to [−1, 1] first for conditioning.
+ */
+function arrowheadEigenvalues(zs: Float64Array, u: Float64Array): ComplexArray {
+  const m = zs.length;
+  if (m < 2) return { re: new Float64Array(0), im: new Float64Array(0) };
+  let lo = Infinity, hi = -Infinity;
+  for (const v of zs) { lo = Math.min(lo, v); hi = Math.max(hi, v); }
+  const c = (lo + hi) / 2, s = (hi - lo) / 2 || 1;
+  const d = Float64Array.from(zs, (v) => (v - c) / s);
+  let S = 0, unrm = 0;
+  for (let j = 0; j < m; j++) { S += u[j]!; unrm += u[j]! * u[j]!; }
+  unrm = Math.sqrt(unrm);
+  if (unrm === 0) throw new Error('aaa: all weights are zero');
+  // Householder vector h with P = I − 2hhᵀ/hᵀh mapping u to ∓‖u‖e1
+  const h = Float64Array.from(u);
+  h[0] = h[0]! + (u[0]! >= 0 ? unrm : -unrm);
+  let hh = 0;
+  for (let j = 0; j < m; j++) hh += h[j]! * h[j]!;
+  const P = (i: number, j: number) => (i === j ? 1 : 0) - (2 * h[i]! * h[j]!) / hh;
+  // columns 1..m−1 of P form Q
+  const Q = matZeros(m, m - 1);
+  for (let i = 0; i < m; i++) for (let j = 1; j < m; j++) Q.data[i * (m - 1) + j - 1] = P(i, j);
+  const H = matZeros(m - 1, m - 1);
+  const qe = new Float64Array(m - 1), qdu = new Float64Array(m - 1);
+  for (let a = 0; a < m - 1; a++) {
+    let se = 0, sdu = 0;
+    for (let i = 0; i < m; i++) { const q = Q.data[i * (m - 1) + a]!; se += q; sdu += q * d[i]! * u[i]!; }
+    qe[a] = se; qdu[a] = sdu;
+  }
+  const tiny = Math.abs(S) < 1e-300;
+  for (let a = 0; a < m - 1; a++) {
+    for (let b = 0; b < m - 1; b++) {
+      let t = 0;
+      for (let i = 0; i < m; i++) t += Q.data[i * (m - 1) + a]! * d[i]! * Q.data[i * (m - 1) + b]!;
+      H.data[a * (m - 1) + b] = t - (tiny ? 0 : (qe[a]! * qdu[b]!) / S);
+    }
+  }
+  if (tiny) {
+    // Σu = 0: one eigenvalue is at infinity; the pencil restricted as above is then degenerate.
+    // Fall back to a tiny perturbation of S (the far eigenvalue is discarded by the caller's use).
+    return arrowheadEigenvalues(zs, Float64Array.from(u, (v, j) => (j === 0 ? v + 1e-14 * unrm : v)));
+  }
+  const e = eigGeneral(H);
+  return { re: Float64Array.from(e.re, (v) => c + s * v), im: Float64Array.from(e.im, (v) => s * v) };
+}
+
+/** Poles of r (m−1 of them for m support points; complex pairs for real data). */
+export function poles(r: Barycentric): ComplexArray {
+  return arrowheadEigenvalues(r.support, r.weights);
+}
+
+/** Zeros of r: finite eigenvalues of the same pencil with weights w_j f_j. */
+export function zerosOf(r: Barycentric): ComplexArray {
+  const u = Float64Array.from(r.weights, (w, j) => w * r.values[j]!);
+  let any = false;
+  for (const v of u) if (v !== 0) any = true;
+  if (!any) return { re: new Float64Array(0), im: new Float64Array(0) };
+  return arrowheadEigenvalues(r.support, u);
+}
+
+/** Residues n(λ)/d'(λ) at the given poles. */
+export function residues(r: Barycentric, p: ComplexArray): ComplexArray {
+  const K = p.re.length;
+  const re = new Float64Array(K), im = new Float64Array(K);
+  for (let k = 0; k < K; k++) {
+    let nr = 0, ni = 0, dr = 0, di = 0;
+    for (let j = 0; j < r.support.length; j++) {
+      // 1/(λ − z_j)
+      const ar = p.re[k]! - r.support[j]!, ai = p.im[k]!;
+      const den = ar * ar + ai * ai;
+      const cr = ar / den, ci = -ai / den;
+      const w = r.weights[j]!;
+      nr += w * r.values[j]! * cr; ni += w * r.values[j]! * ci;
+      // −1/(λ − z_j)²
+      dr -= w * (cr * cr - ci * ci); di -= w * (2 * cr * ci);
+    }
+    const dd = dr * dr + di * di;
+    re[k] = (nr * dr + ni * di) / dd;
+    im[k] = (ni * dr - nr * di) / dd;
+  }
+  return { re, im };
+}
