@@ -1,0 +1,120 @@
+/**
+ * `buildDossier(dir)`: DIR/findings.json (+ the kernel it names) → DIR/dossier.html and
+ * DIR/dossier.pdf, written atomically. What is read:
+ *   - DIR/findings.json (format kerneldx-findings/1);
+ *   - the kernel folder: findings.kernel_dir, or findings.kernel.dir / findings.kernel.path
+ *     (relative to DIR), else DIR/kernel/ when it holds kernel.json, else DIR itself when it
+ *     holds kernel.json; without a kernel the dossier is made from the findings alone.
+ *   - the study title and units from findings.study.{title, units} (or findings.title/units).
+ * Everything but the generation time (and the times the findings carry) is a deterministic
+ * function of those files.
+ */
+import { readFileSync, existsSync } from 'node:fs';
+import { join, resolve, isAbsolute, relative } from 'node:path';
+import type { Findings, Kernel, InputFile } from '../types.js';
+import { InputError } from '../errors.js';
+import { readKernel, isKernelDir } from '../io/kernel.js';
+import { withOutput, sha256File } from '../io/output.js';
+import { Progress, processIo } from '../cli/common.js';
+import { buildModel, type DossierModel } from './model.js';
+import { renderSvg } from './vega.js';
+import { renderHtml } from './html.js';
+import { renderPdf } from './pdf.js';
+
+export { buildModel, type DossierModel } from './model.js';
+export { renderHtml, safeJson } from './html.js';
+export { renderPdf } from './pdf.js';
+export { CAUTION } from './text.js';
+
+export const FINDINGS_FORMAT = 'kerneldx-findings/1';
+
+export interface DossierOptions {
+  argv?: string[];
+  quiet?: boolean;
+  /** fixed generation time (ISO 8601); default now */
+  generated?: string;
+}
+
+export interface LoadedFindings { findings: Findings; kernel: Kernel | null; kernelDir: string | null; files: InputFile[] }
+
+/** Read and check DIR/findings.json and locate its kernel (boundary validation: exit 3 on bad input). */
+export function loadFindings(dirArg: string): LoadedFindings {
+  const dir = resolve(dirArg);
+  const path = join(dir, 'findings.json');
+  const label = relative(process.cwd(), path) || path;
+  if (!existsSync(path)) throw new InputError({ file: label }, 'file not found (run `kerneldx diagnose` or `kerneldx run` first)');
+  const raw = readFileSync(path);
+  let doc: unknown;
+  try { doc = JSON.parse(raw.toString('utf8')); } catch (e) { throw new InputError({ file: label }, `invalid JSON: ${(e as Error).message}`); }
+  if (!doc || typeof doc !== 'object' || Array.isArray(doc)) throw new InputError({ file: label }, 'expected a JSON object');
+  const F = doc as Findings & Record<string, unknown>;
+  if (F.format !== FINDINGS_FORMAT) throw new InputError({ file: label }, `unknown format ${JSON.stringify(F.format)}; expected "${FINDINGS_FORMAT}"`);
+  if (F.dimension !== 1 && F.dimension !== 2) throw new InputError({ file: label }, 'dimension must be 1 or 2');
+  for (const key of ['fit', 'components', 'self_adjoint', 'transport', 'order', 'linearity']) {
+    if (!F[key] || typeof F[key] !== 'object') throw new InputError({ file: label }, `"${key}" is required (interface §5)`);
+  }
+  for (const key of ['hypotheses', 'singularities', 'interfaces', 'regions']) {
+    if (F[key] !== undefined && !Array.isArray(F[key])) throw new InputError({ file: label }, `"${key}" must be a list`);
+  }
+  F.hypotheses ??= []; F.singularities ??= []; F.interfaces ??= []; F.regions ??= [];
+  F.evidence ??= {};
+  const files: InputFile[] = [{ path: 'findings.json', sha256: sha256File(raw) }];
+  const kref = F.kernel as { dir?: unknown; path?: unknown } | string | undefined;
+  const named = typeof F.kernel_dir === 'string' ? F.kernel_dir
+    : typeof kref === 'string' ? kref
+      : kref && typeof kref === 'object' ? (typeof kref.dir === 'string' ? kref.dir : typeof kref.path === 'string' ? kref.path : undefined) : undefined;
+  let kernelDir: string | null = null;
+  if (named) {
+    kernelDir = isAbsolute(named) ? named : join(dir, named);
+    if (!isKernelDir(kernelDir)) throw new InputError({ file: label }, `the kernel folder it names (${named}) has no kernel.json`);
+  } else if (isKernelDir(join(dir, 'kernel'))) kernelDir = join(dir, 'kernel');
+  else if (isKernelDir(dir)) kernelDir = dir;
+  let kernel: Kernel | null = null;
+  if (kernelDir) {
+    kernel = readKernel(kernelDir);
+    const rel = relative(dir, kernelDir);
+    for (const f of kernel.files ?? []) files.push({ path: rel ? `${rel}/${f.path}` : f.path, sha256: f.sha256 });
+  }
+  return { findings: F, kernel, kernelDir, files };
+}
+
+/** Render the model's figures to SVG (and the frames of heat maps for the PDF). */
+export async function renderFigures(model: DossierModel): Promise<{ svg: Map<string, string>; frame: Map<string, string> }> {
+  const svg = new Map<string, string>(), frame = new Map<string, string>();
+  for (const f of model.figures) {
+    if (f.chart.kind === 'heat') {
+      svg.set(f.id, await renderSvg(f.chart.heat.spec));
+      frame.set(f.id, await renderSvg(f.chart.heat.frame));
+    } else svg.set(f.id, await renderSvg(f.chart.spec));
+  }
+  return { svg, frame };
+}
+
+/** The dossier's two documents in memory (no file system). */
+export async function renderDossier(findings: Findings, kernel: Kernel | null, files: InputFile[], opts: { rebuild: string; generated: string }):
+  Promise<{ html: string; pdf: Buffer; model: DossierModel }> {
+  const model = buildModel({ findings, kernel, dossierInputs: files, rebuild: opts.rebuild, generated: opts.generated });
+  const svgs = await renderFigures(model);
+  const html = renderHtml(model, svgs.svg);
+  const pdf = await renderPdf(model, svgs);
+  return { html, pdf, model };
+}
+
+function shellQuote(s: string): string {
+  return /^[\w@%+=:,./-]+$/.test(s) ? s : `'${s.replace(/'/g, `'\\''`)}'`;
+}
+
+export async function buildDossier(dir: string, opts: DossierOptions = {}): Promise<{ html: string; pdf: string }> {
+  const progress = new Progress(processIo, !!opts.quiet);
+  const loaded = loadFindings(dir);
+  progress.say(`read findings${loaded.kernelDir ? ' and kernel' : ' (no kernel folder found: figures of the kernel are left out)'}`);
+  const rebuild = `kerneldx report ${shellQuote(relative(process.cwd(), resolve(dir)) || '.')}`;
+  const generated = opts.generated ?? new Date().toISOString();
+  const { html, pdf } = await renderDossier(loaded.findings, loaded.kernel, loaded.files, { rebuild, generated });
+  progress.say(`rendered dossier (HTML ${(html.length / 1e6).toFixed(2)} MB, PDF ${(pdf.length / 1e6).toFixed(2)} MB)`);
+  await withOutput(dir, (stage) => {
+    stage.write('dossier.html', html);
+    stage.write('dossier.pdf', pdf);
+  });
+  return { html: join(resolve(dir), 'dossier.html'), pdf: join(resolve(dir), 'dossier.pdf') };
+}
