@@ -2,10 +2,14 @@
 import type { Command } from 'commander';
 import type { Io } from './common.js';
 import { registerDiagnose, registerRun } from './diagnose.js';
+import { registerReport } from './report.js';
+import { registerDemo } from './demo.js';
 
 export type Register = (program: Command, io: Io, setExit: (code: number) => void) => void;
 
 export const commands: Register[] = [
   registerDiagnose,
   registerRun,
+  registerReport,
+  registerDemo,
 ];

@@ -10,7 +10,7 @@
  * function of those files.
  */
 import { readFileSync, existsSync } from 'node:fs';
-import { join, resolve, isAbsolute, relative } from 'node:path';
+import { join, resolve, isAbsolute, relative, basename, dirname } from 'node:path';
 import type { Findings, Kernel, InputFile } from '../types.js';
 import { InputError } from '../errors.js';
 import { readKernel, isKernelDir } from '../io/kernel.js';
@@ -100,6 +100,12 @@ export async function renderDossier(findings: Findings, kernel: Kernel | null, f
   return { html, pdf, model };
 }
 
+/** A dossier built inside an output stage (src/io/output.ts) names the folder it will become. */
+export function finalDir(dir: string): string {
+  const m = /^\.(.+)\.kdx-partial-[0-9a-f]{8}$/.exec(basename(dir));
+  return m ? join(dirname(dir), m[1]!) : dir;
+}
+
 function shellQuote(s: string): string {
   return /^[\w@%+=:,./-]+$/.test(s) ? s : `'${s.replace(/'/g, `'\\''`)}'`;
 }
@@ -108,7 +114,7 @@ export async function buildDossier(dir: string, opts: DossierOptions = {}): Prom
   const progress = new Progress(processIo, !!opts.quiet);
   const loaded = loadFindings(dir);
   progress.say(`read findings${loaded.kernelDir ? ' and kernel' : ' (no kernel folder found: figures of the kernel are left out)'}`);
-  const rebuild = `kerneldx report ${shellQuote(relative(process.cwd(), resolve(dir)) || '.')}`;
+  const rebuild = `kerneldx report ${shellQuote(relative(process.cwd(), finalDir(resolve(dir))) || '.')}`;
   const generated = opts.generated ?? new Date().toISOString();
   const { html, pdf } = await renderDossier(loaded.findings, loaded.kernel, loaded.files, { rebuild, generated });
   progress.say(`rendered dossier (HTML ${(html.length / 1e6).toFixed(2)} MB, PDF ${(pdf.length / 1e6).toFixed(2)} MB)`);
