@@ -460,7 +460,7 @@ function interpretOde(seen: Map<string, Item>, domain: [number, number], source:
       let conds: EndCondition[];
       if (hits.length) { used.add(hits[0]!.key); conds = parseEnd(hits[0]!); }
       else if (bcAll) conds = parseEnd(bcAll);
-      else conds = order === 4 ? namedEnd('clamped', [], { key: side }, 'clamped (default)') : namedEnd('dirichlet', [], { key: side }, 'dirichlet (default)');
+      else conds = order === 4 ? namedEnd("clamped", [], { key: side, value: null }, 'clamped (default)') : namedEnd("dirichlet", [], { key: side, value: null }, 'dirichlet (default)');
       const where = hits[0] ?? bcAll;
       if (conds.length !== order / 2) {
         throw new SpecError(`component ${ci} is of order ${order} and needs ${order / 2} condition(s) at the ${side} end, got ${conds.length}${order === 4 ? ' (e.g. clamped(0,0), supported(0,0), free(0,0), or two joined by &)' : ''}`, where?.pos);
