@@ -13,10 +13,11 @@
  * Poles are the finite eigenvalues of the arrowhead pencil (E, B), E = [0 wᵀ; 1 diag(z)],
  * B = diag(0, 1, …, 1) (§3 of the paper). We reduce it exactly to a standard (m−1)×(m−1)
  * eigenproblem on the complement of w (see `arrowheadEigenvalues`), then use a real
- * Hessenberg–QR eigensolver (complex pairs included). Pure module: no I/O.
+ * Hessenberg–QR eigensolver (hqr.ts; complex pairs included). Pure module: no I/O.
  */
 import { zeros as matZeros, type Mat } from '../linalg/dense.js';
-import { svd, eigGeneral } from '../linalg/decomp.js';
+import { svd } from '../linalg/decomp.js';
+import { eigenvaluesReal } from './hqr.js';
 
 export interface Barycentric {
   /** support points z_j */
@@ -104,8 +105,45 @@ function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: 
     }
   }
   for (let i = 0; i < m; i++) for (let j = i; j < m; j++) R.data[i * m + j] = A[j * M + i]!;
-  const d = svd(R);
-  return lastColumn(d.V, d.s);
+  return smallestRightSingular(R);
+}
+
+/**
+ * Right singular vector of the smallest singular value of a small square matrix by one-sided
+ * Jacobi rotations (Hestenes 1958; Demmel & Veselić, SIAM J. Matrix Anal. Appl. 1992: high
+ * relative accuracy, which the nearly singular Loewner factor needs).
+ */
+function smallestRightSingular(R: Mat): Float64Array {
+  const m = R.cols, n = R.rows;
+  // column-major copies: U (n × m) and V (m × m)
+  const U = new Float64Array(n * m), V = new Float64Array(m * m);
+  for (let j = 0; j < m; j++) { for (let i = 0; i < n; i++) U[j * n + i] = R.data[i * m + j]!; V[j * m + j] = 1; }
+  for (let sweep = 0; sweep < 30; sweep++) {
+    let rotated = false;
+    for (let p = 0; p < m - 1; p++) {
+      for (let q = p + 1; q < m; q++) {
+        let a = 0, b = 0, g = 0;
+        const up = p * n, uq = q * n;
+        for (let i = 0; i < n; i++) { const x = U[up + i]!, y = U[uq + i]!; a += x * x; b += y * y; g += x * y; }
+        if (g === 0 || Math.abs(g) <= m * EPS * Math.sqrt(a * b)) continue;
+        rotated = true;
+        const zeta = (b - a) / (2 * g);
+        const t = (zeta >= 0 ? 1 : -1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
+        const c = 1 / Math.sqrt(1 + t * t), s = c * t;
+        for (let i = 0; i < n; i++) { const x = U[up + i]!, y = U[uq + i]!; U[up + i] = c * x - s * y; U[uq + i] = s * x + c * y; }
+        const vp = p * m, vq = q * m;
+        for (let i = 0; i < m; i++) { const x = V[vp + i]!, y = V[vq + i]!; V[vp + i] = c * x - s * y; V[vq + i] = s * x + c * y; }
+      }
+    }
+    if (!rotated) break;
+  }
+  let jmin = 0, best = Infinity;
+  for (let j = 0; j < m; j++) {
+    let nrm = 0;
+    for (let i = 0; i < n; i++) nrm += U[j * n + i]! * U[j * n + i]!;
+    if (nrm < best) { best = nrm; jmin = j; }
+  }
+  return V.slice(jmin * m, (jmin + 1) * m);
 }
 
 function lastColumn(V: Mat, s: Float64Array): Float64Array {
@@ -297,7 +335,7 @@ function arrowheadEigenvalues(zs: Float64Array, u: Float64Array): ComplexArray {
     // Fall back to a tiny perturbation of S (the far eigenvalue is discarded by the caller's use).
     return arrowheadEigenvalues(zs, Float64Array.from(u, (v, j) => (j === 0 ? v + 1e-14 * unrm : v)));
   }
-  const e = eigGeneral(H);
+  const e = eigenvaluesReal(H.data, m - 1);
   return { re: Float64Array.from(e.re, (v) => c + s * v), im: Float64Array.from(e.im, (v) => s * v) };
 }
 

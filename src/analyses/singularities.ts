@@ -1,0 +1,345 @@
+/**
+ * Singularities from rational poles: internal layers, shocks and kinks of the homogeneous part
+ * u_h and fixed (non-diagonal) singularities of the kernel G.
+ *
+ * // AAA: Nakatsukasa, Sète & Trefethen, SIAM J. Sci. Comput. 2018 (poles of a rational fit locate nearby singularities).
+ *
+ * A function with a steep layer or a kink at x0 has a rational approximant whose poles crowd
+ * around x0 just off the real axis, at a distance that scales with the layer width (tanh(t/δ):
+ * nearest poles at x0 ± iπδ/2). Plain AAA on noisy samples places spurious poles on or near
+ * the axis, so the degree is chosen by an even/odd split cross-validation (fit on one half of
+ * the samples, predict the other), and a pole only counts when its contribution on the axis,
+ * |residue| / distance, stands well above the cross-validated noise. Poles are then grouped
+ * by their real parts into clusters. Rows (fixed x) and columns (fixed s) of G always carry the
+ * moving diagonal kink at s = x; that cluster is discarded row by row, and only clusters that
+ * recur at the same place across rows and columns are reported as fixed singularities.
+ */
+import type { Analysis, AnalysisOutput, Context } from './analysis.js';
+import { clamp01, separationConfidence } from './analysis.js';
+import type { Findings, Kernel, Evidence } from '../types.js';
+import type { Mat } from '../linalg/dense.js';
+import { aaa, aaaSequence, evaluate, poles, residues } from '../rational/aaa.js';
+
+type F = Findings['singularities'];
+
+export interface PoleCluster {
+  /** influence-weighted mean real part of the poles */
+  location: number;
+  /** smallest distance of a cluster pole from the real axis (≈ layer width scale) */
+  width: number;
+  /** Σ |residue| / max(|Im λ|, h), relative to max|f|: the peak the poles contribute on the axis */
+  influence: number;
+  count: number;
+}
+
+export interface PoleScan {
+  clusters: PoleCluster[];
+  /** number of support points chosen by cross-validation */
+  terms: number;
+  /** cross-validated RMS misfit relative to max|f| (the noise level the poles must beat) */
+  noise: number;
+  /** all poles with Im > 0 near the segment, for plots */
+  poles: { re: number; im: number; influence: number }[];
+}
+
+export interface ScanOptions {
+  /** segment of interest */
+  lo: number;
+  hi: number;
+  /** largest number of support points tried (default min(24, n/4)) */
+  maxTerms?: number;
+  /** poles farther than this fraction of the length from the axis are not "near" (default 0.1) */
+  maxDistance?: number;
+  /** multiple of the noise a pole's influence must exceed (default 3, common practice) */
+  sigmas?: number;
+  /** clusters closer than this to the ends are boundary layers, not internal (default max(3h, 0.02 L)) */
+  margin?: number;
+}
+
+function medianSpacing(x: Float64Array): number {
+  const d: number[] = [];
+  for (let i = 1; i < x.length; i++) d.push(Math.abs(x[i]! - x[i - 1]!));
+  d.sort((a, b) => a - b);
+  return d.length ? d[Math.floor(d.length / 2)]! : 0;
+}
+
+/**
+ * Cross-validated AAA on one function f(x) (x sorted ascending) and the pole clusters that
+ * stand above the noise, inside the segment (minus a margin at each end).
+ */
+export function scanPoles(xIn: ArrayLike<number>, fIn: ArrayLike<number>, opts: ScanOptions): PoleScan {
+  const keep: number[] = [];
+  for (let i = 0; i < fIn.length; i++) if (Number.isFinite(fIn[i]!) && Number.isFinite(xIn[i]!)) keep.push(i);
+  keep.sort((a, b) => xIn[a]! - xIn[b]!);
+  const x = Float64Array.from(keep, (i) => xIn[i]!);
+  const n = x.length;
+  const none: PoleScan = { clusters: [], terms: 0, noise: 1, poles: [] };
+  if (n < 12) return none;
+  let fmax = 0;
+  for (const i of keep) fmax = Math.max(fmax, Math.abs(fIn[i]!));
+  if (!(fmax > 0)) return none;
+  const f = Float64Array.from(keep, (i) => fIn[i]! / fmax);
+  const L = opts.hi - opts.lo;
+  const h = medianSpacing(x);
+  const mmax = Math.max(2, Math.min(opts.maxTerms ?? 24, Math.floor(n / 4)));
+  // even/odd split cross-validation of the number of support points
+  const even = { x: [] as number[], f: [] as number[] }, odd = { x: [] as number[], f: [] as number[] };
+  for (let i = 0; i < n; i++) { const t = i % 2 ? odd : even; t.x.push(x[i]!); t.f.push(f[i]!); }
+  // robust score: the median squared prediction error (÷ 0.4549, the median of χ²₁, so that
+  // it estimates a variance); isolated blow-ups next to spurious real-axis poles do not decide
+  const sq: number[][] = Array.from({ length: mmax }, () => []);
+  for (const [tr, te] of [[even, odd], [odd, even]] as const) {
+    const seq = aaaSequence(tr.x, tr.f, mmax, 1e-13);
+    for (let m = 0; m < mmax; m++) {
+      const r = seq[Math.min(m, seq.length - 1)]!;
+      const ev = evaluate(r, te.x);
+      for (let i = 0; i < ev.length; i++) { const e = ev[i]! - te.f[i]!; sq[m]!.push(Number.isFinite(e) ? e * e : Infinity); }
+    }
+  }
+  const cv = sq.map((v) => { v.sort((p, q) => p - q); return v[Math.floor(v.length / 2)]! / 0.4549; });
+  let best = 0;
+  for (let m = 0; m < mmax; m++) if (cv[m]! < cv[best]!) best = m;
+  // parsimony (common practice): the smallest degree whose score is within 10 % of the best
+  for (let m = 0; m < best; m++) if (cv[m]! <= 1.1 * cv[best]!) { best = m; break; }
+  const noise = Math.sqrt(cv[best]!);
+  const terms = best + 1;
+  if (terms < 2) return { ...none, terms, noise };
+  const r = aaa(x, f, { maxTerms: terms, tol: 0, cleanup: true });
+  const p = poles(r);
+  const res = residues(r, p);
+  const maxD = (opts.maxDistance ?? 0.1) * L;
+  const margin = opts.margin ?? Math.max(3 * h, 0.02 * L);
+  const sig = opts.sigmas ?? 3;
+  const near: { re: number; im: number; influence: number }[] = [];
+  for (let k = 0; k < p.re.length; k++) {
+    const im = p.im[k]!;
+    // real poles inside the segment cannot belong to bounded data: spurious; keep one of each pair
+    if (!(im > 1e-12 * L)) continue;
+    if (im > maxD || p.re[k]! < opts.lo - maxD || p.re[k]! > opts.hi + maxD) continue;
+    const influence = Math.hypot(res.re[k]!, res.im[k]!) / Math.max(im, h);
+    if (!Number.isFinite(influence)) continue;
+    near.push({ re: p.re[k]!, im, influence });
+  }
+  const strong = near.filter((q) => q.influence > sig * noise).sort((a, b) => a.re - b.re);
+  // group by real part: neighbours closer than max(2h, their distance from the axis)
+  const clusters: PoleCluster[] = [];
+  let cur: typeof strong = [];
+  const flush = () => {
+    if (!cur.length) return;
+    // location: the most influential pole of the cluster (weighted means pick up noise poles)
+    let wsum = 0, top = cur[0]!, width = Infinity;
+    for (const q of cur) { wsum += q.influence; if (q.influence > top.influence) top = q; width = Math.min(width, q.im); }
+    clusters.push({ location: top.re, width, influence: wsum, count: cur.length });
+    cur = [];
+  };
+  for (const q of strong) {
+    const last = cur[cur.length - 1];
+    if (last && q.re - last.re > Math.max(2 * h, Math.max(last.im, q.im))) flush();
+    cur.push(q);
+  }
+  flush();
+  const inside = clusters.filter((c) => c.location > opts.lo + margin && c.location < opts.hi - margin);
+  return { clusters: inside, terms, noise, poles: near };
+}
+
+// ------------------------------------------------------------------ kernel-level search
+
+export interface Singularity {
+  location: number;
+  width: number;
+  /** where it was seen */
+  source: 'homogeneous' | 'kernel';
+  /** fraction of the eligible rows/columns (kernel) in which the cluster recurs */
+  recurrence: number;
+  influence: number;
+  noise: number;
+}
+
+interface Slice { x: Float64Array; f: Float64Array; diag: number | null; kind: 'row' | 'column' | 'diagonal' }
+
+function bounds1d(k: Kernel): [number, number] {
+  if (k.domain.kind === 'interval') return k.domain.bounds;
+  let lo = Infinity, hi = -Infinity;
+  for (const v of k.pointsOut.data) { lo = Math.min(lo, v); hi = Math.max(hi, v); }
+  for (const v of k.pointsIn.data) { lo = Math.min(lo, v); hi = Math.max(hi, v); }
+  return [lo, hi];
+}
+
+/** linear interpolation of row i of G (a function of s on xIn, sorted) at s = t */
+function interp(xs: Float64Array, ys: ArrayLike<number>, t: number): number {
+  let j = 0;
+  while (j < xs.length - 2 && xs[j + 1]! < t) j++;
+  const a = xs[j]!, b = xs[j + 1]!;
+  const u = (t - a) / (b - a);
+  return ys[j]! * (1 - u) + ys[j + 1]! * u;
+}
+
+function slices(G: Mat, xOut: Float64Array, xIn: Float64Array, count: number, lo: number, hi: number): Slice[] {
+  const out: Slice[] = [];
+  const L = hi - lo;
+  const nearestIndex = (arr: Float64Array, t: number) => {
+    let b = 0;
+    for (let i = 1; i < arr.length; i++) if (Math.abs(arr[i]! - t) < Math.abs(arr[b]! - t)) b = i;
+    return b;
+  };
+  for (let k = 0; k < count; k++) {
+    const t = lo + (L * (k + 0.5)) / count;
+    const i = nearestIndex(xOut, t);
+    out.push({ x: xIn, f: G.data.slice(i * G.cols, (i + 1) * G.cols), diag: xOut[i]!, kind: 'row' });
+    const j = nearestIndex(xIn, t);
+    const c = new Float64Array(G.rows);
+    for (let r = 0; r < G.rows; r++) c[r] = G.data[r * G.cols + j]!;
+    out.push({ x: xOut, f: c, diag: xIn[j]!, kind: 'column' });
+  }
+  // the diagonal g(x) = G(x, x), interpolating along s when sensors differ from actuators
+  const d = new Float64Array(xOut.length);
+  let ok = true;
+  for (let i = 0; i < xOut.length; i++) {
+    const t = xOut[i]!;
+    if (t < xIn[0]! || t > xIn[xIn.length - 1]!) { ok = false; break; }
+    d[i] = interp(xIn, G.data.subarray(i * G.cols, (i + 1) * G.cols), t);
+  }
+  if (ok) out.push({ x: xOut, f: d, diag: null, kind: 'diagonal' });
+  return out;
+}
+
+export interface SingularityOptions {
+  /** rows and columns scanned (each; default 6) */
+  slices?: number;
+  tolerance?: number;
+  /** scan the homogeneous part / the kernel (default both) */
+  homogeneous?: boolean;
+  kernel?: boolean;
+}
+
+/**
+ * Fixed singularities of one kernel (block (0,0) of a system) and of its homogeneous part.
+ * Returns candidates with their recurrence; confidence is assigned by the caller from
+ * replicates.
+ */
+export function findSingularities(G: Mat, homogeneous: Float64Array | null, kernel: Kernel, opts: SingularityOptions = {}): { found: Singularity[]; plot: { re: number; im: number; influence: number; source: string }[]; scans: number } {
+  const [lo, hi] = bounds1d(kernel);
+  const L = hi - lo;
+  const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
+  const xOut = kernel.pointsOut.data.slice(0, nOut), xIn = kernel.pointsIn.data.slice(0, nIn);
+  const sortedIn = Array.from(xIn).every((v, i, a) => i === 0 || v > a[i - 1]!);
+  const sortedOut = Array.from(xOut).every((v, i, a) => i === 0 || v > a[i - 1]!);
+  const h = Math.max(medianSpacing(xOut), medianSpacing(xIn));
+  const tol = opts.tolerance ?? Math.max(3 * h, 0.02 * L);
+  const found: Singularity[] = [];
+  const plot: { re: number; im: number; influence: number; source: string }[] = [];
+  let scans = 0;
+  if (homogeneous && homogeneous.length >= nOut && opts.homogeneous !== false) {
+    const s = scanPoles(xOut, homogeneous.subarray(0, nOut), { lo, hi, maxTerms: 24 });
+    scans++;
+    for (const q of s.poles) plot.push({ ...q, source: 'homogeneous' });
+    for (const c of s.clusters) found.push({ location: c.location, width: c.width, source: 'homogeneous', recurrence: 1, influence: c.influence, noise: s.noise });
+  }
+  if (sortedIn && sortedOut && opts.kernel !== false) {
+    const sl = slices(G, xOut, xIn, opts.slices ?? 6, lo, hi);
+    const hits: { loc: number; width: number; influence: number; noise: number }[][] = [];
+    const diagOf: (number | null)[] = [];
+    for (const s of sl) {
+      const scan = scanPoles(s.x, s.f, { lo, hi, maxTerms: 16 });
+      scans++;
+      for (const q of scan.poles) plot.push({ ...q, source: s.kind });
+      // the moving diagonal kink of this row/column is not a fixed singularity
+      const excl = (c: PoleCluster) => s.diag !== null && Math.abs(c.location - s.diag) < Math.max(tol, 3 * c.width);
+      hits.push(scan.clusters.filter((c) => !excl(c)).map((c) => ({ loc: c.location, width: c.width, influence: c.influence, noise: scan.noise })));
+      diagOf.push(s.diag);
+    }
+    // group candidate locations across slices
+    const all = hits.flatMap((hs, k) => hs.map((q) => ({ ...q, k }))).sort((a, b) => a.loc - b.loc);
+    const groups: (typeof all)[] = [];
+    for (const q of all) {
+      const g = groups[groups.length - 1];
+      if (g && q.loc - g[g.length - 1]!.loc < tol) g.push(q); else groups.push([q]);
+    }
+    for (const g of groups) {
+      const slicesHit = new Set(g.map((q) => q.k));
+      let wsum = 0, loc = 0, width = Infinity, infl = 0, noise = 0;
+      for (const q of g) { wsum += q.influence; loc += q.influence * q.loc; width = Math.min(width, q.width); infl = Math.max(infl, q.influence); noise = Math.max(noise, q.noise); }
+      loc /= wsum;
+      // eligible slices: those whose own diagonal kink does not mask this location
+      let eligible = 0;
+      for (let k = 0; k < sl.length; k++) if (diagOf[k] === null || Math.abs(diagOf[k]! - loc) >= Math.max(tol, 3 * width)) eligible++;
+      const recurrence = eligible ? Math.min(1, slicesHit.size / eligible) : 0;
+      if (recurrence >= 0.5) found.push({ location: loc, width, source: 'kernel', recurrence, influence: infl, noise });
+    }
+  }
+  return { found, plot, scans };
+}
+
+const EXPLANATION = 'A steep internal layer, shock or kink makes a rational approximation place poles just off the real axis next to it; their distance from the axis measures how sharp the feature is. We fit rational functions (AAA) to the homogeneous part, to rows and columns of the kernel and to its diagonal, choose their degree by predicting every other sample from the rest, and keep only poles whose pull on the axis stands well above that prediction error. In the kernel, the kink on its own diagonal moves with the row and is discarded; a singularity counts only where poles recur at the same place across many rows and columns and across the resampled kernels.';
+
+export const singularities: Analysis<F> = {
+  key: 'singularities',
+  dependsOn: [],
+  run(kernel: Kernel, ctx: Context): AnalysisOutput<F> {
+    if (kernel.dimension !== 1) {
+      return {
+        finding: [],
+        evidence: { statistic: null, noise_floor: null, summary: 'The pole search runs on 1-D kernels only; no singularities are reported for this 2-D kernel.', explanation: EXPLANATION, plot: { poles: [], segment: null } },
+      };
+    }
+    const [lo, hi] = bounds1d(kernel);
+    const L = hi - lo;
+    const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
+    const block = (G: Mat): Mat => {
+      if (G.rows === nOut && G.cols === nIn) return G;
+      const d = new Float64Array(nOut * nIn);
+      for (let i = 0; i < nOut; i++) for (let j = 0; j < nIn; j++) d[i * nIn + j] = G.data[i * G.cols + j]!;
+      return { rows: nOut, cols: nIn, data: d };
+    };
+    const main = findSingularities(block(kernel.G), kernel.homogeneous, kernel);
+    const maxReps = Math.max(0, Math.min(8, Number(ctx.options['singularityReplicates'] ?? 8)));
+    const reps = ctx.noise.replicates.slice(0, maxReps);
+    const hreps = ctx.noise.homogeneousReplicates;
+    const h = Math.max(medianSpacing(kernel.pointsOut.data), medianSpacing(kernel.pointsIn.data));
+    const tol = Math.max(3 * h, 0.02 * L);
+    // replicates are scanned only for the kinds of candidate the kernel itself showed
+    const wantH = main.found.some((s) => s.source === 'homogeneous');
+    const wantK = main.found.some((s) => s.source === 'kernel');
+    const repFound = wantH || wantK
+      ? reps.map((R, k) => findSingularities(block(R), hreps[k] ?? null, kernel, { homogeneous: wantH, kernel: wantK }).found)
+      : [];
+    const finding: F = [];
+    for (const s of main.found) {
+      const matches = repFound.map((fs) => fs.filter((q) => q.source === s.source && Math.abs(q.location - s.location) < Math.max(tol, 2 * s.width)));
+      const hits = matches.filter((m) => m.length > 0).length;
+      const locs = matches.flatMap((m) => (m.length ? [m[0]!.location] : []));
+      let spread = 0;
+      if (locs.length > 1) {
+        const mu = locs.reduce((a, b) => a + b, 0) / locs.length;
+        spread = Math.sqrt(locs.reduce((a, b) => a + (b - mu) ** 2, 0) / (locs.length - 1));
+      }
+      // recurrence over replicates (add-one smoothing so that few replicates stay modest)
+      const recur = (hits + 1) / (reps.length + 2);
+      const strength = s.source === 'kernel' ? s.recurrence : separationConfidence(s.influence, s.noise);
+      const confidence = clamp01(recur * strength);
+      if (confidence < 0.5) continue;
+      finding.push({
+        location: round(s.location), width: round(s.width), confidence: round(confidence),
+        uncertainty: round(Math.max(spread, h / 2)), source: s.source,
+        recurrence: round(s.recurrence), replicate_hits: hits, replicates: reps.length,
+      });
+    }
+    finding.sort((a, b) => (a.location as number) - (b.location as number));
+    const strongest = main.found.reduce((m, s) => Math.max(m, s.influence / (s.noise || 1)), 0);
+    const summary = finding.length
+      ? `${finding.length} singularit${finding.length > 1 ? 'ies' : 'y'} off the diagonal: ` + finding.map((f) => `x ≈ ${(f.location as number).toFixed(3)} (width ≈ ${f.width.toExponential(1)}, ${f.source}, confidence ${f.confidence.toFixed(2)})`).join('; ') + '.'
+      : `No pole cluster recurs off the diagonal (${main.scans} rational fits${reps.length ? `, ${reps.length} resampled kernels` : ''}).`;
+    const evidence: Evidence = {
+      statistic: main.found.length ? round(strongest) : null,
+      noise_floor: main.found.length ? 3 : null,
+      summary,
+      explanation: EXPLANATION,
+      plot: { segment: [lo, hi], poles: main.plot.slice(0, 400), clusters: finding },
+    };
+    return { finding, evidence };
+  },
+};
+
+function round(v: number): number {
+  return Number.isFinite(v) ? Number(v.toPrecision(4)) : v;
+}
