@@ -287,7 +287,7 @@ export function localCoefficients(kernel: Kernel, ctx: Pick<Context, 'noise' | '
   const wOut = quadratureWeights(kernel.pointsOut, kernel.domain);
   const [dlo, dhi] = interval(kernel.domain, kernel.pointsOut);
   const h = maxSpacing(xOut);
-  let r = Math.min(opts.radius ?? defaultRadius(dlo, dhi, xOut), (hi - lo) / 2);
+  let r = Math.min(opts.radius ?? (order === 4 ? Math.max(0.25 * (dhi - dlo), 5 * h) : defaultRadius(dlo, dhi, xOut)), (hi - lo) / 2);
   if (r < 4 * h) return empty(`the interval is narrower than a test bump resolvable on this grid (needs ${(8 * h).toFixed(3)})`, order);
   const params = modelParams(order, advection, false);
   const P = params.length;

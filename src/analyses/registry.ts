@@ -3,6 +3,8 @@
  * named in its `dependsOn`). Adding a question = one file + one line here.
  */
 import type { Analysis } from './analysis.js';
+import { operatorAnalysis } from './operator.js';
 
 export const analyses: Analysis<unknown>[] = [
+  operatorAnalysis as Analysis<unknown>, // after order and self_adjoint, before regions
 ];
