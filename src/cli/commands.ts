@@ -4,6 +4,7 @@ import type { Io } from './common.js';
 import { registerDiagnose, registerRun } from './diagnose.js';
 import { registerReport } from './report.js';
 import { registerDemo } from './demo.js';
+import { registerSimulate } from './simulate.js';
 
 export type Register = (program: Command, io: Io, setExit: (code: number) => void) => void;
 
@@ -12,4 +13,5 @@ export const commands: Register[] = [
   registerRun,
   registerReport,
   registerDemo,
+  registerSimulate,
 ];
