@@ -1,0 +1,362 @@
+/**
+ * The 1-D estimator: a Green's function that is smooth on either side of its diagonal,
+ *
+ *   G_pq(x, s) = Σ_ab C_ab φ_a(x) ψ_b(s) + sign(x − s) Σ_ab D_ab φ_a(x) ψ_b(s),
+ *
+ * with orthonormal Legendre bases φ, ψ of size K on the study's interval. Every Green's function
+ * of a 1-D differential operator with smooth coefficients has this form, G = A + sign(x − s)·B with
+ * A, B smooth (from G = u1(x<) u2(x>)/(a_n W) and its order-n generalisation: Coddington &
+ * Levinson 1955, ch. 7), self-adjoint or not, so the diagonal kink is represented exactly instead
+ * of being smeared over many smooth modes. The model is linear in (C, D): a ridge with a
+ * degree-weighted penalty, K and λ chosen by GCV (Golub, Heath & Wahba 1979); u_h is a free
+ * intercept per sensor, profiled out by centring each sensor's data over its measured experiments.
+ * The sign features are prefix sums over the sorted forcing points, so missing values, distinct
+ * sensor/actuator points and several components cost nothing extra.
+ */
+import type { Mat } from '../linalg/dense.js';
+import { zeros } from '../linalg/dense.js';
+import type { Prepared } from './prepare.js';
+import { legendreBasis } from './basis.js';
+import { type NormalSystem, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
+
+export type Constraint = 'none' | 'symmetric' | 'translation';
+
+export interface KinkSetup {
+  Kmax: number;
+  Phi: Mat; // nOut × Kmax
+  Psi: Mat; // nIn × Kmax
+  /** features per row at Kmax: 2·Kmax·cIn */
+  F: number;
+  /** per (component, sensor) c = p·nOut + i: centred Gram XᵀX (F × F), Xᵀu (F), uᵀu, measured count */
+  rowQ: Float64Array;
+  rowR: Float64Array;
+  rowYY: Float64Array;
+  rowN: Int32Array;
+  /** per (component, sensor): mean feature row over measured experiments (F) and mean response */
+  xbar: Float64Array; // (cOut·nOut) × F
+  ubar: Float64Array; // cOut·nOut
+}
+
+/**
+ * Visit each sensor with its full feature matrix X (N × F, row-major) at basis size K.
+ * Column c = q·2K + part·K + b: part 0 = Σ_k ψ_b(s_k) w_k f_j^q(s_k), part 1 = the same with sign(x − s_k).
+ */
+export function sweepFeatures(prep: Prepared, Psi: Mat, K: number, cb: (i: number, X: Float64Array) => void): void {
+  const { N, nIn, cIn, nOut } = prep;
+  const F = 2 * K * cIn;
+  const s = prep.pointsIn.data, x = prep.pointsOut.data;
+  const order = Array.from({ length: nIn }, (_, k) => k).sort((a, b) => s[a]! - s[b]!);
+  const outOrder = Array.from({ length: nOut }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
+  const KP = Psi.cols;
+  // Z[q] = FW^q Ψ (N × K)
+  const Z = new Float64Array(cIn * N * K);
+  const cols = nIn * cIn;
+  for (let q = 0; q < cIn; q++) for (let j = 0; j < N; j++) {
+    const zo = (q * N + j) * K;
+    for (let k = 0; k < nIn; k++) {
+      const fw = prep.FW.data[j * cols + q * nIn + k]!;
+      if (fw === 0) continue;
+      const po = k * KP;
+      for (let b = 0; b < K; b++) Z[zo + b] += fw * Psi.data[po + b]!;
+    }
+  }
+  const lt = new Float64Array(cIn * N * K); // running Σ over s_k < x
+  const eq = new Float64Array(cIn * N * K);
+  const X = new Float64Array(N * F);
+  let ptr = 0;
+  const addPoint = (k: number, target: Float64Array) => {
+    const po = k * KP;
+    for (let q = 0; q < cIn; q++) for (let j = 0; j < N; j++) {
+      const fw = prep.FW.data[j * cols + q * nIn + k]!;
+      if (fw === 0) continue;
+      const o = (q * N + j) * K;
+      for (let b = 0; b < K; b++) target[o + b] += fw * Psi.data[po + b]!;
+    }
+  };
+  for (const i of outOrder) {
+    const xi = x[i]!;
+    while (ptr < nIn && s[order[ptr]!]! < xi) { addPoint(order[ptr]!, lt); ptr++; }
+    eq.fill(0);
+    for (let p2 = ptr; p2 < nIn && s[order[p2]!]! === xi; p2++) addPoint(order[p2]!, eq);
+    for (let j = 0; j < N; j++) {
+      for (let q = 0; q < cIn; q++) {
+        const o = (q * N + j) * K, xo = j * F + q * 2 * K;
+        for (let b = 0; b < K; b++) {
+          const z = Z[o + b]!;
+          X[xo + b] = z;
+          X[xo + K + b] = 2 * lt[o + b]! + eq[o + b]! - z;
+        }
+      }
+    }
+    cb(i, X);
+  }
+}
+
+/** Centre each sensor's data over its measured experiments and store the per-sensor Gram matrices at Kmax. */
+export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][]): KinkSetup {
+  const { nOut, cOut, cIn } = prep;
+  const [lo, hi] = prep.box[0]!;
+  const Phi = legendreBasis(prep.pointsOut.data, Kmax, lo, hi);
+  const Psi = legendreBasis(prep.pointsIn.data, Kmax, lo, hi);
+  const F = 2 * Kmax * cIn;
+  const nc = cOut * nOut;
+  const rowQ = new Float64Array(nc * F * F), rowR = new Float64Array(nc * F), rowYY = new Float64Array(nc), rowN = new Int32Array(nc);
+  const xbar = new Float64Array(nc * F), ubar = new Float64Array(nc);
+  const xt = new Float64Array(F);
+  const colsOut = nOut * cOut;
+  sweepFeatures(prep, Psi, Kmax, (i, X) => {
+    for (let p = 0; p < cOut; p++) {
+      const c = p * nOut + i;
+      const J = measuredSets[c]!;
+      const nJ = J.length;
+      const xb = xbar.subarray(c * F, (c + 1) * F);
+      let ub = 0;
+      for (const j of J) { ub += prep.U.data[j * colsOut + c]!; for (let f = 0; f < F; f++) xb[f] += X[j * F + f]!; }
+      ub /= nJ;
+      for (let f = 0; f < F; f++) xb[f] /= nJ;
+      ubar[c] = ub;
+      const Q = rowQ.subarray(c * F * F, (c + 1) * F * F), r = rowR.subarray(c * F, (c + 1) * F);
+      let yy = 0;
+      for (const j of J) {
+        const u = prep.U.data[j * colsOut + c]! - ub;
+        yy += u * u;
+        for (let f = 0; f < F; f++) xt[f] = X[j * F + f]! - xb[f]!;
+        for (let f = 0; f < F; f++) {
+          const v = xt[f]!;
+          if (v === 0) continue;
+          r[f] += v * u;
+          const o = f * F;
+          for (let g = f; g < F; g++) Q[o + g] += v * xt[g]!;
+        }
+      }
+      for (let f = 0; f < F; f++) for (let g = 0; g < f; g++) Q[f * F + g] = Q[g * F + f]!;
+      rowYY[c] = yy;
+      rowN[c] = nJ;
+    }
+  });
+  return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar };
+}
+
+/**
+ * The full tensor model's normal system for output component p at basis size K (layout of
+ * `kinkIndex(K, …)`), assembled from the per-sensor Grams: M = Σ_i (φ_i φ_iᵀ) ⊗ Q_i.
+ */
+export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: number): NormalSystem {
+  const { nOut, cIn } = prep;
+  const { Kmax, F } = setup;
+  const Fk = 2 * K * cIn;
+  const sel: number[] = [];
+  for (let q = 0; q < cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < K; b++) sel.push(q * 2 * Kmax + part * Kmax + b);
+  const P = K * Fk;
+  const M = zeros(P, P), r = new Float64Array(P);
+  let yy = 0, nObs = 0;
+  const Qs = new Float64Array(Fk * Fk);
+  for (let i = 0; i < nOut; i++) {
+    const c = p * nOut + i;
+    const Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F), rr = setup.rowR.subarray(c * F, (c + 1) * F);
+    for (let f = 0; f < Fk; f++) for (let g = 0; g < Fk; g++) Qs[f * Fk + g] = Q[sel[f]! * F + sel[g]!]!;
+    yy += setup.rowYY[c]!;
+    nObs += setup.rowN[c]! - 1;
+    const phi = setup.Phi.data.subarray(i * Kmax, i * Kmax + K);
+    for (let a = 0; a < K; a++) {
+      const pa = phi[a]!;
+      for (let f = 0; f < Fk; f++) r[a * Fk + f] += pa * rr[sel[f]!]!;
+      for (let a2 = a; a2 < K; a2++) {
+        const w = pa * phi[a2]!;
+        if (w === 0) continue;
+        for (let f = 0; f < Fk; f++) {
+          const row = (a * Fk + f) * P + a2 * Fk, qo = f * Fk;
+          for (let g = 0; g < Fk; g++) M.data[row + g] += w * Qs[qo + g]!;
+        }
+      }
+    }
+  }
+  for (let a = 0; a < K; a++) for (let a2 = a + 1; a2 < K; a2++) {
+    for (let f = 0; f < Fk; f++) for (let g = 0; g < Fk; g++) M.data[(a2 * Fk + g) * P + a * Fk + f] = M.data[(a * Fk + f) * P + a2 * Fk + g]!;
+  }
+  return { M, r, yy, nObs };
+}
+
+/** Embed θ of the layout at K into the layout at Kmax. */
+export function embedTheta(theta: Float64Array, K: number, Kmax: number, cIn: number): Float64Array {
+  const out = new Float64Array(Kmax * 2 * Kmax * cIn);
+  for (let a = 0; a < K; a++) for (let q = 0; q < cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < K; b++) {
+    out[kinkIndex(Kmax, cIn, a, q, part, b)] = theta[kinkIndex(K, cIn, a, q, part, b)]!;
+  }
+  return out;
+}
+
+/** θ index at basis size Kmax of coefficient (a, q, part, b). */
+export function kinkIndex(Kmax: number, cIn: number, a: number, q: number, part: number, b: number): number {
+  return a * 2 * Kmax * cIn + q * 2 * Kmax + part * Kmax + b;
+}
+
+/** Map from reduced parameters η to θ (at Kmax): θ = T η, each θ entry takes ±η_e or 0. */
+export interface ParamMap {
+  /** size of η */
+  size: number;
+  /** θ indices (at Kmax) with their η index and sign */
+  theta: Int32Array;
+  eta: Int32Array;
+  sign: Float64Array;
+}
+
+export function unconstrainedMap(Kmax: number, cIn: number, K: number): ParamMap {
+  const th: number[] = [], et: number[] = [], sg: number[] = [];
+  let e = 0;
+  for (let a = 0; a < K; a++) for (let q = 0; q < cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < K; b++) {
+    th.push(kinkIndex(Kmax, cIn, a, q, part, b)); et.push(e++); sg.push(1);
+  }
+  return { size: e, theta: Int32Array.from(th), eta: Int32Array.from(et), sign: Float64Array.from(sg) };
+}
+
+/** Self-adjoint (scalar): G(x,s) = G(s,x) ⇔ C symmetric and D antisymmetric. */
+export function symmetricMap(Kmax: number, K: number): ParamMap {
+  const th: number[] = [], et: number[] = [], sg: number[] = [];
+  let e = 0;
+  for (let a = 0; a < K; a++) for (let b = a; b < K; b++) {
+    th.push(kinkIndex(Kmax, 1, a, 0, 0, b)); et.push(e); sg.push(1);
+    if (b !== a) { th.push(kinkIndex(Kmax, 1, b, 0, 0, a)); et.push(e); sg.push(1); }
+    e++;
+  }
+  for (let a = 0; a < K; a++) for (let b = a + 1; b < K; b++) {
+    th.push(kinkIndex(Kmax, 1, a, 0, 1, b)); et.push(e); sg.push(1);
+    th.push(kinkIndex(Kmax, 1, b, 0, 1, a)); et.push(e); sg.push(-1);
+    e++;
+  }
+  return { size: e, theta: Int32Array.from(th), eta: Int32Array.from(et), sign: Float64Array.from(sg) };
+}
+
+/** Penalty weight of coefficient (a, b): ((1 + a)(1 + b))^order — a smoothness prior on A and B. */
+export function penaltyWeights(Kmax: number, cIn: number, order: number): Float64Array {
+  const F = 2 * Kmax * cIn;
+  const w = new Float64Array(Kmax * F);
+  for (let a = 0; a < Kmax; a++) for (let q = 0; q < cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < Kmax; b++) {
+    w[kinkIndex(Kmax, cIn, a, q, part, b)] = Math.pow((1 + a) * (1 + b), order);
+  }
+  return w;
+}
+
+/** The reduced normal system Tᵀ M T, Tᵀ r and penalty Tᵀ diag(P) T (diagonal since T has one entry a row). */
+export function reduceSystem(sys: NormalSystem, Pfull: Float64Array, map: ParamMap): { sys: NormalSystem; P: Float64Array } {
+  const n = map.size, P0 = sys.r.length;
+  const M = zeros(n, n), r = new Float64Array(n), P = new Float64Array(n);
+  const L = map.theta.length;
+  for (let u = 0; u < L; u++) {
+    const tu = map.theta[u]!, eu = map.eta[u]!, su = map.sign[u]!;
+    r[eu] += su * sys.r[tu]!;
+    P[eu] += Pfull[tu]!;
+    const row = tu * P0;
+    for (let v = 0; v < L; v++) M.data[eu * n + map.eta[v]!] += su * map.sign[v]! * sys.M.data[row + map.theta[v]!]!;
+  }
+  return { sys: { M, r, yy: sys.yy, nObs: sys.nObs }, P };
+}
+
+export interface KinkChoice {
+  K: number;
+  order: number;
+  gcv: GcvPoint;
+  /** GCV path over the candidates tried */
+  tried: { K: number; order: number; gcv: number; lambda: number; dof: number }[];
+}
+
+/** Candidate basis sizes (nested Legendre bases), in increasing order. */
+export function kinkCandidates(Kmax: number): number[] {
+  const base = [3, 4, 6, 8, 10, 12, 14, 16, 18, 20, 22, 24, 28, 32];
+  const c = base.filter((k) => k <= Kmax);
+  if (!c.includes(Kmax)) c.push(Kmax);
+  return c;
+}
+
+/**
+ * Choose (K, penalty order, λ) for one output component by GCV. Sizes are tried in increasing order
+ * and the search stops once GCV has risen for two sizes in a row (common practice for nested models).
+ */
+export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, orders: number[]): KinkChoice {
+  const tried: KinkChoice['tried'] = [];
+  let best: KinkChoice | null = null;
+  for (const order of orders) {
+    const Pfull = penaltyWeights(Kmax, cIn, order);
+    let rises = 0, prev = Infinity;
+    for (const K of kinkCandidates(Kmax)) {
+      const map = constraint === 'symmetric' ? symmetricMap(Kmax, K) : unconstrainedMap(Kmax, cIn, K);
+      const red = reduceSystem(sys, Pfull, map);
+      const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
+      tried.push({ K, order, gcv: g.gcv, lambda: g.lambda, dof: g.dof });
+      if (!best || g.gcv < best.gcv.gcv) best = { K, order, gcv: g, tried };
+      if (g.gcv >= prev) { if (++rises >= 2) break; } else rises = 0;
+      prev = g.gcv;
+    }
+  }
+  return best!;
+}
+
+export interface KinkFit {
+  K: number;
+  order: number;
+  lambda: number;
+  constraint: Constraint;
+  map: ParamMap;
+  solver: RidgeSolver;
+  /** θ in the layout of the system it was solved in (zeros beyond K) */
+  theta: Float64Array;
+  gcv: GcvPoint;
+}
+
+export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: KinkChoice, constraint: Constraint): KinkFit {
+  const Pfull = penaltyWeights(Kf, cIn, choice.order);
+  const map = constraint === 'symmetric' ? symmetricMap(Kf, choice.K) : unconstrainedMap(Kf, cIn, choice.K);
+  const red = reduceSystem(sys, Pfull, map);
+  const solver = new RidgeSolver(red.sys, red.P, choice.gcv.lambda);
+  const eta = solver.solveVec(red.sys.r);
+  return { K: choice.K, order: choice.order, lambda: choice.gcv.lambda, constraint, map, solver, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
+}
+
+export function expand(map: ParamMap, eta: Float64Array, P: number): Float64Array {
+  const th = new Float64Array(P);
+  for (let u = 0; u < map.theta.length; u++) th[map.theta[u]!] = map.sign[u]! * eta[map.eta[u]!]!;
+  return th;
+}
+
+/** Tᵀ v for a θ-space vector (the reduced right-hand side). */
+export function reduceVec(map: ParamMap, v: Float64Array): Float64Array {
+  const out = new Float64Array(map.size);
+  for (let u = 0; u < map.theta.length; u++) out[map.eta[u]!] += map.sign[u]! * v[map.theta[u]!]!;
+  return out;
+}
+
+/** Row coefficient vector θ_i = Σ_a φ_a(x_i) Θ_a (length F) for sensor i. */
+export function rowCoefficients(setup: KinkSetup, theta: Float64Array, i: number, out: Float64Array): Float64Array {
+  const { Kmax, F } = setup;
+  out.fill(0);
+  for (let a = 0; a < Kmax; a++) {
+    const pa = setup.Phi.data[i * Kmax + a]!;
+    if (pa === 0) continue;
+    const o = a * F;
+    for (let f = 0; f < F; f++) out[f] += pa * theta[o + f]!;
+  }
+  return out;
+}
+
+/** Write the kernel rows of output component p into G ((nOut·cOut) × (nIn·cIn)). */
+export function kernelRows(prep: Prepared, setup: KinkSetup, theta: Float64Array, p: number, G: Mat): void {
+  const { nIn, nOut, cIn } = prep;
+  const { Kmax, F, Psi } = setup;
+  const th = new Float64Array(F);
+  const s = prep.pointsIn.data, x = prep.pointsOut.data;
+  const cols = nIn * cIn;
+  for (let i = 0; i < nOut; i++) {
+    rowCoefficients(setup, theta, i, th);
+    const ro = (p * nOut + i) * cols;
+    for (let q = 0; q < cIn; q++) {
+      const base = q * 2 * Kmax;
+      for (let k = 0; k < nIn; k++) {
+        const sg = Math.sign(x[i]! - s[k]!);
+        let v = 0;
+        const po = k * Kmax;
+        for (let b = 0; b < Kmax; b++) v += Psi.data[po + b]! * (th[base + b]! + sg * th[base + Kmax + b]!);
+        G.data[ro + q * nIn + k] = v;
+      }
+    }
+  }
+}

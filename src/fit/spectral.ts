@@ -1,0 +1,211 @@
+/**
+ * Ridge regression in normal-equation form with the regularisation chosen by GCV,
+ * for every λ at once from one symmetric tridiagonalisation.
+ *
+ *   minimise ‖y − Xθ‖² + λ θᵀ diag(P) θ,   given only M = XᵀX, r = Xᵀy, ‖y‖².
+ *
+ * With θ = P^{-1/2} η the problem is standard ridge; M̄ = P^{-1/2} M P^{-1/2} = V diag(μ) Vᵀ and
+ * c = Vᵀ P^{-1/2} r give RSS(λ) and tr H(λ) in O(p) per λ.
+ * GCV: Golub, Heath & Wahba, Technometrics 21 (1979) 215–223.
+ * Householder tridiagonalisation and implicit QL: Golub & Van Loan, Matrix Computations (4th ed.) §8.3;
+ * the QL sweep follows the EISPACK tql1/tql2 pattern (Bowdler, Martin, Reinsch & Wilkinson, Numer. Math. 1968).
+ */
+import type { Mat } from '../linalg/dense.js';
+import { cholesky, choleskySolve } from '../linalg/decomp.js';
+
+export interface NormalSystem {
+  /** p × p, symmetric positive semi-definite */
+  M: Mat;
+  /** p */
+  r: Float64Array;
+  /** ‖y‖² */
+  yy: number;
+  /** number of observations behind M (after removing fitted intercepts) */
+  nObs: number;
+}
+
+export interface RidgeSpectrum {
+  /** eigenvalues of M̄ */
+  mu: Float64Array;
+  /** coordinates of P^{-1/2} r in the eigenbasis */
+  c: Float64Array;
+  yy: number;
+  nObs: number;
+}
+
+/** Eigenvalues of a symmetric matrix and the eigen-coordinates of one vector (no eigenvectors formed). */
+export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Array; coords: Float64Array } {
+  const n = Ain.rows;
+  const A = new Float64Array(Ain.data);
+  const z = new Float64Array(v);
+  const d = new Float64Array(n), e = new Float64Array(n);
+  const u = new Float64Array(n), w = new Float64Array(n);
+  // Householder: for k = 0..n−3 annihilate A[k+2.., k]
+  for (let k = 0; k < n - 2; k++) {
+    const m = n - k - 1; // length of the sub-column
+    let alpha = 0;
+    for (let i = k + 1; i < n; i++) alpha += A[i * n + k]! * A[i * n + k]!;
+    alpha = Math.sqrt(alpha);
+    const x0 = A[(k + 1) * n + k]!;
+    if (alpha === 0) { d[k] = A[k * n + k]!; e[k] = 0; continue; }
+    const s = x0 > 0 ? -alpha : alpha;
+    // v = x − s e1, H = I − 2 v vᵀ / (vᵀv)
+    for (let i = k + 1; i < n; i++) u[i] = A[i * n + k]!;
+    u[k + 1] = x0 - s;
+    let vv = 0;
+    for (let i = k + 1; i < n; i++) vv += u[i]! * u[i]!;
+    if (vv === 0) { d[k] = A[k * n + k]!; e[k] = x0; continue; }
+    const beta = 2 / vv;
+    // p = β A22 u
+    for (let i = k + 1; i < n; i++) {
+      let acc = 0;
+      const o = i * n;
+      for (let j = k + 1; j < n; j++) acc += A[o + j]! * u[j]!;
+      w[i] = beta * acc;
+    }
+    let pu = 0;
+    for (let i = k + 1; i < n; i++) pu += w[i]! * u[i]!;
+    const kk = (beta * pu) / 2;
+    for (let i = k + 1; i < n; i++) w[i] = w[i]! - kk * u[i]!;
+    // A22 −= u wᵀ + w uᵀ
+    for (let i = k + 1; i < n; i++) {
+      const ui = u[i]!, wi = w[i]!, o = i * n;
+      for (let j = k + 1; j < n; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
+    }
+    d[k] = A[k * n + k]!;
+    e[k] = s;
+    // z ← H z on the trailing part
+    let uz = 0;
+    for (let i = k + 1; i < n; i++) uz += u[i]! * z[i]!;
+    const f = beta * uz;
+    for (let i = k + 1; i < n; i++) z[i] -= f * u[i]!;
+    void m;
+  }
+  if (n >= 2) { d[n - 2] = A[(n - 2) * n + n - 2]!; e[n - 2] = A[(n - 1) * n + n - 2]!; }
+  d[n - 1] = A[(n - 1) * n + n - 1]!;
+  e[n - 1] = 0;
+  // implicit QL with Wilkinson-type shift; rotations applied to the row vector zᵀ
+  let anorm = 0;
+  for (let i = 0; i < n; i++) anorm = Math.max(anorm, Math.abs(d[i]!) + Math.abs(e[i]!));
+  const floor = anorm * 1e-300 + anorm * 2.2e-16 * 2.2e-16;
+  for (let l = 0; l < n; l++) {
+    let iter = 0;
+    for (;;) {
+      let m = l;
+      for (; m < n - 1; m++) {
+        const dd = Math.abs(d[m]!) + Math.abs(d[m + 1]!);
+        if (Math.abs(e[m]!) <= 2.2e-16 * dd + floor) break;
+      }
+      if (m === l) break;
+      if (++iter > 60) throw new Error('eigenCoordinates: QL iteration did not converge');
+      let g = (d[l + 1]! - d[l]!) / (2 * e[l]!);
+      let r = Math.hypot(g, 1);
+      g = d[m]! - d[l]! + e[l]! / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
+      let s = 1, c = 1, p = 0;
+      let i = m - 1;
+      let underflow = false;
+      for (; i >= l; i--) {
+        const f = s * e[i]!, b = c * e[i]!;
+        r = Math.hypot(f, g);
+        e[i + 1] = r;
+        if (r === 0) { d[i + 1] -= p; e[m] = 0; underflow = true; break; }
+        s = f / r; c = g / r;
+        g = d[i + 1]! - p;
+        r = (d[i]! - g) * s + 2 * c * b;
+        p = s * r;
+        d[i + 1] = g + p;
+        g = c * r - b;
+        const zf = z[i + 1]!;
+        z[i + 1] = s * z[i]! + c * zf;
+        z[i] = c * z[i]! - s * zf;
+      }
+      if (underflow) continue;
+      d[l] -= p; e[l] = g; e[m] = 0;
+    }
+  }
+  return { values: d, coords: z };
+}
+
+export function ridgeSpectrum(sys: NormalSystem, P: Float64Array): RidgeSpectrum {
+  const p = sys.r.length;
+  const Mb = new Float64Array(p * p);
+  const is = new Float64Array(p);
+  for (let i = 0; i < p; i++) is[i] = 1 / Math.sqrt(P[i]!);
+  for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) Mb[i * p + j] = sys.M.data[i * p + j]! * is[i]! * is[j]!;
+  const rb = new Float64Array(p);
+  for (let i = 0; i < p; i++) rb[i] = sys.r[i]! * is[i]!;
+  const { values, coords } = eigenCoordinates({ rows: p, cols: p, data: Mb }, rb);
+  for (let i = 0; i < p; i++) if (values[i]! < 0) values[i] = 0;
+  return { mu: values, c: coords, yy: sys.yy, nObs: sys.nObs };
+}
+
+export interface GcvPoint { lambda: number; gcv: number; rss: number; dof: number }
+
+/** RSS and effective degrees of freedom at λ from the spectrum. */
+export function gcvAt(sp: RidgeSpectrum, lambda: number): GcvPoint {
+  let fit = 0, dof = 0;
+  for (let i = 0; i < sp.mu.length; i++) {
+    const m = sp.mu[i]!, c2 = sp.c[i]! * sp.c[i]!;
+    const q = m + lambda;
+    if (q <= 0) continue;
+    fit += c2 * (2 / q - m / (q * q));
+    dof += m / q;
+  }
+  const rss = Math.max(sp.yy - fit, 1e-300 * sp.yy);
+  const den = sp.nObs - dof;
+  const gcv = den > 0 ? (sp.nObs * rss) / (den * den) : Infinity;
+  return { lambda, gcv, rss, dof };
+}
+
+/** Minimise GCV over log λ: a coarse grid then golden-section refinement. */
+export function gcvMinimise(sp: RidgeSpectrum): GcvPoint {
+  let top = 0;
+  for (const m of sp.mu) top = Math.max(top, m);
+  if (!(top > 0)) return gcvAt(sp, 1);
+  const lo = Math.log(top * 1e-15), hi = Math.log(top * 10);
+  const steps = 60;
+  let best = gcvAt(sp, Math.exp(lo)), bi = 0;
+  const grid: GcvPoint[] = [];
+  for (let k = 0; k <= steps; k++) {
+    const pt = gcvAt(sp, Math.exp(lo + ((hi - lo) * k) / steps));
+    grid.push(pt);
+    if (pt.gcv < best.gcv) { best = pt; bi = k; }
+  }
+  let a = lo + ((hi - lo) * Math.max(0, bi - 1)) / steps, b = lo + ((hi - lo) * Math.min(steps, bi + 1)) / steps;
+  const gr = (Math.sqrt(5) - 1) / 2;
+  let x1 = b - gr * (b - a), x2 = a + gr * (b - a);
+  let f1 = gcvAt(sp, Math.exp(x1)).gcv, f2 = gcvAt(sp, Math.exp(x2)).gcv;
+  for (let it = 0; it < 30; it++) {
+    if (f1 < f2) { b = x2; x2 = x1; f2 = f1; x1 = b - gr * (b - a); f1 = gcvAt(sp, Math.exp(x1)).gcv; }
+    else { a = x1; x1 = x2; f1 = f2; x2 = a + gr * (b - a); f2 = gcvAt(sp, Math.exp(x2)).gcv; }
+  }
+  const cand = gcvAt(sp, Math.exp((a + b) / 2));
+  return cand.gcv < best.gcv ? cand : best;
+}
+
+/** A factorised ridge system at fixed λ; solves reuse the Cholesky factor. */
+export class RidgeSolver {
+  private readonly L: Mat;
+  constructor(readonly sys: NormalSystem, readonly P: Float64Array, readonly lambda: number) {
+    const p = sys.r.length;
+    const A = new Float64Array(sys.M.data);
+    for (let i = 0; i < p; i++) A[i * p + i] += lambda * P[i]!;
+    let L = cholesky({ rows: p, cols: p, data: A });
+    for (let jitter = 1e-14; !L; jitter *= 10) {
+      if (jitter > 1e-6) throw new Error('RidgeSolver: normal matrix is not positive definite');
+      let tr = 0;
+      for (let i = 0; i < p; i++) tr += A[i * p + i]!;
+      const B = new Float64Array(A);
+      for (let i = 0; i < p; i++) B[i * p + i] += (jitter * tr) / p;
+      L = cholesky({ rows: p, cols: p, data: B });
+    }
+    this.L = L;
+  }
+  /** solve for one or several right-hand sides (p × m) */
+  solve(rhs: Mat): Mat {
+    return choleskySolve(this.L, rhs);
+  }
+  solveVec(r: Float64Array): Float64Array {
+    return this.solve({ rows: r.length, cols: 1, data: r }).data;
+  }
+}
