@@ -42,7 +42,9 @@ export function renderHtml(model: DossierModel, svgs: Map<string, string>): stri
   const withSvg = (f: { id: string }) => ({ ...f, svg: svgs.get(f.id) ?? '' });
   const m = {
     ...model,
-    hypotheses: model.hypotheses.map((h) => ({ ...h, figure: h.figure ? withSvg(h.figure) : null })),
+    // a hypothesis shows a copy of its figure: give the copy's clip-path ids their own prefix
+    hypotheses: model.hypotheses.map((h, i) => ({ ...h, figure: h.figure
+      ? { ...h.figure, svg: (svgs.get(h.figure.id) ?? '').replaceAll(`"${h.figure.id}-`, `"${h.figure.id}-h${i + 1}-`).replaceAll(`#${h.figure.id}-`, `#${h.figure.id}-h${i + 1}-`) } : null })),
     analyses: model.analyses.map((s) => ({ ...s, figures: s.figures.map(withSvg) })),
     kernelFigures: model.kernelFigures.map(withSvg),
   };

@@ -83,9 +83,9 @@ export async function renderFigures(model: DossierModel): Promise<{ svg: Map<str
   const svg = new Map<string, string>(), frame = new Map<string, string>();
   for (const f of model.figures) {
     if (f.chart.kind === 'heat') {
-      svg.set(f.id, await renderSvg(f.chart.heat.spec));
-      frame.set(f.id, await renderSvg(f.chart.heat.frame));
-    } else svg.set(f.id, await renderSvg(f.chart.spec));
+      svg.set(f.id, await renderSvg(f.chart.heat.spec, f.id));
+      frame.set(f.id, await renderSvg(f.chart.heat.frame, `${f.id}-frame`));
+    } else svg.set(f.id, await renderSvg(f.chart.spec, f.id));
   }
   return { svg, frame };
 }
