@@ -70,9 +70,9 @@ export function operatorComponents(op: OperatorSpec): number {
   return op.kind === 'ode' ? op.components.length : 1;
 }
 
-function checkPoints(op: OperatorSpec, pts: Mat, label: string): void {
+function checkPoints(op: OperatorSpec, pts: Mat, label: string, minRows = 2): void {
   if (pts.cols !== op.dimension) throw new InputError({ file: label }, `points have ${pts.cols} column(s) but the operator is ${op.dimension}-D`);
-  if (pts.rows < 2) throw new InputError({ file: label }, 'need at least 2 points');
+  if (pts.rows < minRows) throw new InputError({ file: label }, `need at least ${minRows} point(s)`);
   const dom = operatorDomain(op);
   for (let i = 0; i < pts.rows; i++) {
     const p = Array.from(pts.data.subarray(i * pts.cols, (i + 1) * pts.cols));
@@ -116,8 +116,8 @@ export function greensKernel(op: OperatorSpec, pointsOut: Mat, pointsIn: Mat): K
 }
 
 function truthOn(op: OperatorSpec, pOut: Mat, pIn: Mat): Truth {
-  checkPoints(op, pIn, 'points_in');
-  checkPoints(op, pOut, 'points_out');
+  checkPoints(op, pIn, 'points_in', 1);
+  checkPoints(op, pOut, 'points_out', 1);
   const domain = operatorDomain(op);
   const weightsIn = quadratureWeights(pIn, domain);
   const C = operatorComponents(op);
