@@ -211,7 +211,15 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
   // ---- audit
   h1('Audit trail', 'audit');
   para(model.intro.audit, { color: C.muted, size: 9.5 });
-  table(['file', 'role', 'SHA-256'], model.audit.inputs.map((f) => [f.path, f.role, f.sha256]), [140, 75, CW - 215], 'mono');
+  // one file a row, its SHA-256 on a line of its own so that a hash is never broken
+  for (const f of model.audit.inputs) {
+    ensure(26);
+    doc.font('body').fontSize(9).fillColor(C.ink).text(f.path, M.left, doc.y, { width: CW, continued: true }).fillColor(C.muted).text(`  (${f.role})`);
+    doc.font('mono').fontSize(8).fillColor(C.ink).text(`SHA-256 ${f.sha256 || '—'}`, M.left + 12, doc.y, { width: CW - 12, lineBreak: false });
+    doc.x = M.left;
+    doc.moveDown(0.45);
+  }
+  doc.moveDown(0.4);
   kv(model.audit.rows, 130);
   h2('Options');
   para(model.audit.options, { font: 'mono', size: 8 });
