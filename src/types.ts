@@ -168,7 +168,7 @@ export interface Findings {
   dimension: Dimension;
   components: { in: number; out: number };
   fit: { relative_residual: number | null; noise_estimate: number | null; experiments: number | null; [k: string]: unknown };
-  self_adjoint: { verdict: YesNo; defect: number; noise_floor: number; confidence: number };
+  self_adjoint: { verdict: YesNo; defect: number; noise_floor: number; confidence: number; [k: string]: unknown };
   transport: { verdict: 'none' | '+x' | '-x' | 'inconclusive'; direction: number[] | null; peclet?: number | null; [k: string]: unknown };
   translation_invariant: { verdict: YesNo; defect: number; confidence: number; isotropic?: YesNo; change_points?: Position[]; [k: string]: unknown };
   order: { estimate: number | null; decay_exponent: number | null; confidence: number; trustworthy_values?: number; [k: string]: unknown };
@@ -178,7 +178,7 @@ export interface Findings {
   singularities: { location: Position; width: number; confidence: number; [k: string]: unknown }[];
   interfaces: { location: Position; uncertainty: number; confidence: number; [k: string]: unknown }[];
   regions: { bounds: [number, number]; character: RegionCharacter; coefficients: Record<string, number>; [k: string]: unknown }[];
-  coupling: { verdict: 'none' | 'one-way' | 'two-way' | 'not-applicable'; matrix: number[][] | null; symmetric?: YesNo; [k: string]: unknown };
+  coupling: { verdict: 'none' | 'one-way' | 'two-way' | 'not-applicable' | 'inconclusive'; matrix: number[][] | null; symmetric?: YesNo; [k: string]: unknown };
   linearity: { verdict: 'linear' | 'nonlinear' | 'inconclusive' | 'not-tested'; [k: string]: unknown };
   operator: { expression: string; terms: OperatorTerm[]; [k: string]: unknown };
   hypotheses: Hypothesis[];

@@ -1,0 +1,328 @@
+/**
+ * Translation invariance (a uniform medium) and, in 2-D, isotropy.
+ *
+ * On a bounded domain even a uniform medium's kernel is not a function of x − s alone: the
+ * boundaries add a correction of low rank (in 1-D of rank about the operator's order; e.g.
+ * x<(1 − x>) = −|x − s|/2 + (x + s)/2 − x s). So we fit "Toeplitz + low rank",
+ * G(x, s) ≈ t(x − s) + Σ_{k≤r} u_k(x) v_k(s), on the interior of the domain by alternating
+ * least squares (diagonal means ↔ a warm-started subspace iteration), and compare the relative
+ * residual with what the replicates' noise alone leaves after the same fit. (Variance along
+ * diagonals does not work: the boundary correction dominates it.) In 2-D on a tensor grid the
+ * Toeplitz part is a function of the index displacement; isotropy replaces it by a function of
+ * the distance |x − s|. Where the medium is not uniform, the local slope jump of G across its
+ * diagonal ([∂xG] = −1/a(s) for −(a u')', Stakgold & Holst; shared/references §3) locates the
+ * change points.
+ */
+import type { Analysis, AnalysisOutput, Context } from './analysis.js';
+import type { Findings, Kernel, Position, YesNo } from '../types.js';
+import type { Mat } from '../linalg/dense.js';
+import { zeros } from '../linalg/dense.js';
+import { squareView, replicates, deviations, decide, sig, weightedNorm, median, topSvd, analysisRng, type SquareView } from './util/a_common.js';
+import { tensorAxes } from '../quadrature.js';
+import { numberOption } from './selfAdjoint.js';
+
+type F = Findings['translation_invariant'];
+
+export interface InvarianceTest {
+  defect: number;
+  floor: number;
+  /** rank allowed for the difference of the boundary corrections */
+  rank: number;
+  /** shift (in grid steps) between the compared blocks */
+  shift: number[];
+  isoDefect?: number;
+  isoFloor?: number;
+  residual: Mat;
+}
+
+function uniformSpacing(x: ArrayLike<number>): boolean {
+  const n = x.length;
+  if (n < 3) return false;
+  const h = (x[n - 1]! - x[0]!) / (n - 1);
+  if (!(h > 0)) return false;
+  for (let i = 1; i < n; i++) if (Math.abs(x[i]! - x[i - 1]! - h) > 1e-6 * Math.abs(h)) return false;
+  return true;
+}
+
+function pick(G: Mat, ri: ArrayLike<number>, ci: ArrayLike<number> = ri): Mat {
+  const out = zeros(ri.length, ci.length);
+  for (let a = 0; a < ri.length; a++) for (let b = 0; b < ci.length; b++) out.data[a * ci.length + b] = G.data[ri[a]! * G.cols + ci[b]!]!;
+  return out;
+}
+
+/** (I − U Uᵀ) D (I − V Vᵀ) for orthonormal U, V (columns). */
+function projectOut(D: Mat, U: Mat, V: Mat): Mat {
+  const m = D.rows, q = D.cols, r = U.cols;
+  const R = zeros(m, q);
+  R.data.set(D.data);
+  // left: R -= U (Uᵀ R)
+  const UtR = new Float64Array(r * q);
+  for (let i = 0; i < m; i++) for (let k = 0; k < r; k++) { const u = U.data[i * r + k]!; if (u === 0) continue; for (let j = 0; j < q; j++) UtR[k * q + j] += u * R.data[i * q + j]!; }
+  for (let i = 0; i < m; i++) for (let k = 0; k < r; k++) { const u = U.data[i * r + k]!; for (let j = 0; j < q; j++) R.data[i * q + j] -= u * UtR[k * q + j]!; }
+  // right: R -= (R V) Vᵀ
+  const rv = V.cols;
+  for (let i = 0; i < m; i++) {
+    const t = new Float64Array(rv);
+    for (let j = 0; j < q; j++) { const v = R.data[i * q + j]!; for (let k = 0; k < rv; k++) t[k] += v * V.data[j * rv + k]!; }
+    for (let j = 0; j < q; j++) { let s = 0; for (let k = 0; k < rv; k++) s += t[k]! * V.data[j * rv + k]!; R.data[i * q + j] -= s; }
+  }
+  return R;
+}
+
+/**
+ * If G = T + L with T a function of x − s (Toeplitz on a uniform grid) and L of rank r, then
+ * the difference of two diagonal blocks shifted by m grid steps, G[I + m, I + m] − G[I, I],
+ * equals L[I + m, I + m] − L[I, I] and has rank ≤ 2r: the offset part cancels exactly, with no
+ * fitting. The statistic is what a rank-2r truncated SVD leaves of that difference, relative
+ * to the block; the floor is the same projection applied to the replicates' deviations.
+ * 1-D: uniform points; 2-D: a uniform tensor grid (shifts along x and along y, rank 2r each).
+ */
+export function invarianceTest(kernel: Kernel, view: SquareView, reps: Mat[], opts: { margin?: number; rank?: number } = {}): InvarianceTest | null {
+  const dim = kernel.dimension;
+  const n = view.x.length;
+  const block = (M: Mat): Mat => (M.rows === n ? M : pick(M, Array.from({ length: n }, (_, i) => i)));
+  const G = block(view.map(kernel.G));
+  const margin = opts.margin ?? (dim === 1 ? 0.05 : 0.1);
+  const pairs: { I: number[]; J: number[]; shift: number[] }[] = [];
+  let rank: number;
+  let rot: number[] | null = null;
+  if (dim === 1) {
+    const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => view.x[a]! - view.x[b]!);
+    const xs = ord.map((i) => view.x[i]!);
+    if (!uniformSpacing(xs)) return null;
+    const lo = xs[0]!, hi = xs[n - 1]!, L = hi - lo;
+    const interior = ord.filter((i) => view.x[i]! >= lo + margin * L - 1e-12 && view.x[i]! <= hi - margin * L + 1e-12);
+    const ni = interior.length, m = Math.round(ni / 3);
+    pairs.push({ I: interior.slice(0, ni - m), J: interior.slice(m), shift: [m] });
+    rank = 2 * (opts.rank ?? 4);
+  } else {
+    const P = { rows: n, cols: 2, data: view.x };
+    const axes = tensorAxes(P);
+    if (!axes) return null;
+    const { xs, ys } = axes;
+    if (!uniformSpacing(xs) || !uniformSpacing(ys)) return null;
+    const nx = xs.length, ny = ys.length;
+    const at = new Int32Array(nx * ny).fill(-1);
+    const hx = (xs[nx - 1]! - xs[0]!) / (nx - 1), hy = (ys[ny - 1]! - ys[0]!) / (ny - 1);
+    for (let i = 0; i < n; i++) at[Math.round((view.x[2 * i]! - xs[0]!) / hx) * ny + Math.round((view.x[2 * i + 1]! - ys[0]!) / hy)] = i;
+    const i0 = Math.round(margin * (nx - 1)), i1 = nx - 1 - i0, j0 = Math.round(margin * (ny - 1)), j1 = ny - 1 - j0;
+    const mx = Math.round((i1 - i0 + 1) / 3), my = Math.round((j1 - j0 + 1) / 3);
+    const blockIdx = (ax: number, bx: number, ay: number, by: number) => { const o: number[] = []; for (let a = ax; a <= bx; a++) for (let b = ay; b <= by; b++) o.push(at[a * ny + b]!); return o; };
+    pairs.push({ I: blockIdx(i0, i1 - mx, j0, j1), J: blockIdx(i0 + mx, i1, j0, j1), shift: [mx, 0] });
+    pairs.push({ I: blockIdx(i0, i1, j0, j1 - my), J: blockIdx(i0, i1, j0 + my, j1), shift: [0, my] });
+    rank = 2 * (opts.rank ?? 12);
+    // isotropy on a square grid of a square: a quarter turn maps the domain onto itself
+    if (nx === ny && Math.abs(hx - hy) <= 1e-6 * hx) {
+      rot = new Array<number>(n);
+      for (let a = 0; a < nx; a++) for (let b = 0; b < ny; b++) rot[at[a * ny + b]!] = at[(ny - 1 - b) * ny + a]!;
+    }
+  }
+  if (pairs.some((p) => p.I.length < 12 || p.I.includes(-1) || p.J.includes(-1))) return null;
+  const devs = deviations(reps.map((r) => block(view.map(r))));
+  let num = 0, den = 0, fl = 0;
+  let resid: Mat | null = null;
+  const rng = analysisRng(41);
+  for (const p of pairs) {
+    const wI = Float64Array.from(p.I, (i) => Math.sqrt(view.w[i]! ));
+    const wJ = Float64Array.from(p.J, (i) => Math.sqrt(view.w[i]!));
+    const diff = (M: Mat) => {
+      const A = pick(M, p.J), B = pick(M, p.I);
+      const D = zeros(A.rows, A.cols);
+      for (let a = 0; a < A.rows; a++) for (let b = 0; b < A.cols; b++) D.data[a * A.cols + b] = Math.sqrt(wI[a]! * wJ[a]! * wI[b]! * wJ[b]!) * (A.data[a * A.cols + b]! - B.data[a * A.cols + b]!);
+      return D;
+    };
+    const D = diff(G);
+    const sv = topSvd(D, Math.min(rank, D.rows - 1), rng);
+    const R = projectOut(D, sv.U, sv.V);
+    num += frob2(R);
+    const B = pick(G, p.I);
+    for (let a = 0; a < B.rows; a++) for (let b = 0; b < B.cols; b++) den += wI[a]! * wJ[a]! * wI[b]! * wJ[b]! * B.data[a * B.cols + b]! ** 2;
+    if (devs.length) fl += devs.reduce((s, d) => s + frob2(projectOut(diff(d), sv.U, sv.V)), 0) / devs.length;
+    if (!resid) resid = R;
+  }
+  const out: InvarianceTest = { defect: Math.sqrt(num / den), floor: devs.length ? Math.sqrt(fl / den) : NaN, rank, shift: pairs.map((p) => p.shift).flat(), residual: resid! };
+  if (rot) {
+    const w = view.w;
+    const isoStat = (M: Mat) => { let s = 0; for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) s += w[i]! * w[j]! * (M.data[rot![i]! * n + rot![j]!]! - M.data[i * n + j]!) ** 2; return s; };
+    const g2 = weightedNorm(G, w, w) ** 2;
+    out.isoDefect = Math.sqrt(isoStat(G) / g2);
+    out.isoFloor = devs.length ? Math.sqrt(devs.reduce((s, d) => s + isoStat(d), 0) / devs.length / g2) : NaN;
+  }
+  return out;
+}
+
+function frob2(M: Mat): number {
+  let s = 0;
+  for (let i = 0; i < M.data.length; i++) s += M.data[i]! ** 2;
+  return s;
+}
+
+/**
+ * Local slope jump of G across its diagonal, J(s) = ∂xG(s⁺, s) − ∂xG(s⁻, s), from cubic
+ * least-squares fits on each side (window [s + δ, s + δ + width]) extrapolated to x = s.
+ * For −(a u')' + … it equals −1/a(s). 1-D, co-located, sorted points.
+ */
+export function diagonalSlopeJump(G: Mat, x: ArrayLike<number>, opts: { gap?: number; width?: number } = {}): { s: number[]; jump: number[]; idx: number[] } {
+  const n = x.length;
+  const L = x[n - 1]! - x[0]!;
+  const h = L / (n - 1);
+  const gap = opts.gap ?? Math.max(3 * h, 0.04 * L);
+  const width = opts.width ?? Math.max(8 * h, 0.15 * L);
+  const s: number[] = [], jump: number[] = [], idx: number[] = [];
+  for (let j = 0; j < n; j++) {
+    const sj = x[j]!;
+    if (sj - gap - width < x[0]! - 1e-12 || sj + gap + width > x[n - 1]! + 1e-12) continue;
+    const side = (dir: 1 | -1): number | null => {
+      const X: number[][] = [], Y: number[] = [];
+      for (let i = 0; i < n; i++) {
+        const t = (x[i]! - sj) * dir;
+        if (t >= gap - 1e-12 && t <= gap + width + 1e-12) { const u = (x[i]! - sj) / width; X.push([1, u, u * u, u * u * u]); Y.push(G.data[i * G.cols + j]!); }
+      }
+      if (X.length < 6) return null;
+      const c = lsq(X, Y);
+      return c ? c[1]! / width : null;
+    };
+    const r = side(1), l = side(-1);
+    if (r === null || l === null) continue;
+    s.push(sj); jump.push(r - l); idx.push(j);
+  }
+  return { s, jump, idx };
+}
+
+function lsq(X: number[][], Y: number[]): number[] | null {
+  // small normal equations with column scaling
+  const p = X[0]!.length;
+  const A = Array.from({ length: p }, () => new Float64Array(p)), b = new Float64Array(p);
+  for (let r = 0; r < X.length; r++) for (let i = 0; i < p; i++) { b[i] += X[r]![i]! * Y[r]!; for (let k = 0; k < p; k++) A[i]![k] += X[r]![i]! * X[r]![k]!; }
+  // Gaussian elimination
+  for (let c = 0; c < p; c++) {
+    let piv = c;
+    for (let r = c + 1; r < p; r++) if (Math.abs(A[r]![c]!) > Math.abs(A[piv]![c]!)) piv = r;
+    if (!(Math.abs(A[piv]![c]!) > 1e-300)) return null;
+    [A[c], A[piv]] = [A[piv]!, A[c]!]; [b[c], b[piv]] = [b[piv]!, b[c]!];
+    for (let r = c + 1; r < p; r++) { const f = A[r]![c]! / A[c]![c]!; for (let k = c; k < p; k++) A[r]![k] -= f * A[c]![k]!; b[r] -= f * b[c]!; }
+  }
+  const out = new Array<number>(p).fill(0);
+  for (let r = p - 1; r >= 0; r--) { let v = b[r]!; for (let k = r + 1; k < p; k++) v -= A[r]![k]! * out[k]!; out[r] = v / A[r]![r]!; }
+  return out;
+}
+
+/**
+ * Change points of a 1-D profile y (noise sd per point `sd`): binary segmentation with a
+ * step model that must beat both a constant and a straight line (BIC, Schwarz 1978), and a
+ * step height above 3 noise units. At most `max` points.
+ */
+export function stepChangePoints(s: number[], y: number[], sd: number[], max = 2): number[] {
+  const out: number[] = [];
+  const segs: [number, number][] = [[0, y.length]];
+  while (out.length < max && segs.length) {
+    const [a, b] = segs.shift()!;
+    const best = bestStep(s, y, sd, a, b);
+    if (best === null) continue;
+    out.push(0.5 * (s[best - 1]! + s[best]!));
+    segs.push([a, best], [best, b]);
+  }
+  return out.sort((p, q) => p - q);
+}
+
+function bestStep(s: number[], y: number[], sd: number[], a: number, b: number): number | null {
+  const m = b - a;
+  if (m < 8) return null;
+  const w = (i: number) => 1 / Math.max(sd[i]! ** 2, 1e-300);
+  // weighted line fit
+  let S = 0, Sx = 0, Sy = 0, Sxx = 0, Sxy = 0;
+  for (let i = a; i < b; i++) { const wi = w(i); S += wi; Sx += wi * s[i]!; Sy += wi * y[i]!; Sxx += wi * s[i]! ** 2; Sxy += wi * s[i]! * y[i]!; }
+  const det = S * Sxx - Sx * Sx;
+  const beta = det > 0 ? (S * Sxy - Sx * Sy) / det : 0, alpha = (Sy - beta * Sx) / S;
+  let sseLine = 0;
+  for (let i = a; i < b; i++) sseLine += w(i) * (y[i]! - alpha - beta * s[i]!) ** 2;
+  let best = -1, bestSse = Infinity, bestH = 0, bestSe = 0;
+  const Pw = [0], Py = [0], Pyy = [0];
+  for (let i = a; i < b; i++) { const wi = w(i); Pw.push(Pw[Pw.length - 1]! + wi); Py.push(Py[Py.length - 1]! + wi * y[i]!); Pyy.push(Pyy[Pyy.length - 1]! + wi * y[i]! ** 2); }
+  for (let k = 3; k <= m - 3; k++) {
+    const lw = Pw[k]!, ly = Py[k]!, lyy = Pyy[k]!;
+    const rw = Pw[m]! - lw, ry = Py[m]! - ly, ryy = Pyy[m]! - lyy;
+    const sse = (lyy - ly * ly / lw) + (ryy - ry * ry / rw);
+    if (sse < bestSse) { bestSse = sse; best = a + k; bestH = ry / rw - ly / lw; bestSe = Math.sqrt(1 / lw + 1 / rw); }
+  }
+  if (best < 0) return null;
+  const bicStep = bestSse + 3 * Math.log(m);
+  const bicLine = sseLine + 2 * Math.log(m);
+  if (bicStep >= bicLine) return null;
+  // sd may be correlated along the profile: require the step to clear 3 units of the per-point noise, not only of the mean
+  const pointSd = median(sd.slice(a, b));
+  if (Math.abs(bestH) < 3 * Math.max(bestSe, pointSd)) return null;
+  return best;
+}
+
+export const translation: Analysis<F> = {
+  key: 'translation_invariant',
+  run(kernel: Kernel, ctx: Context): AnalysisOutput<F> {
+    const explanation =
+      'In a uniform medium the response depends only on the offset x − s between source and observation point, apart from a smooth correction of low rank that the boundaries add. ' +
+      'We fit exactly that shape (a function of the offset plus a few separable terms) to the interior of the kernel and measure what is left over, relative to the kernel; the same fit applied to the resampling noise gives the floor. ' +
+      'Where the medium is not uniform, the jump of the kernel\'s slope across its diagonal (the inverse of the local stiffness) shows where it changes.';
+    const view = squareView(kernel);
+    const reps = replicates(ctx);
+    const test = view ? invarianceTest(kernel, view, reps) : null;
+    if (!view || !test) {
+      return {
+        finding: { verdict: 'inconclusive', defect: NaN, confidence: 0.5, applicable: false, change_points: [] },
+        evidence: { statistic: null, noise_floor: null, summary: 'Translation invariance was not tested: it needs a square view on uniformly spaced points (1-D) or a tensor grid (2-D).', explanation },
+      };
+    }
+    const d = decide(test.defect, test.floor, numberOption(ctx, 'translationResolution', 0.1));
+    const verdict: YesNo = d.decision === 'present' ? 'no' : d.decision === 'absent' ? 'yes' : 'inconclusive';
+    let isotropic: YesNo | undefined;
+    let isoConf: number | undefined;
+    if (test.isoDefect !== undefined) {
+      // isotropy: the kernel against its quarter-turned copy (same domain, same points)
+      const di = decide(test.isoDefect, test.isoFloor!, numberOption(ctx, 'translationResolution', 0.1));
+      isotropic = di.decision === 'present' ? 'no' : di.decision === 'absent' ? (verdict === 'yes' ? 'yes' : 'inconclusive') : 'inconclusive';
+      isoConf = di.confidence;
+    }
+    const change_points: Position[] = [];
+    let profile: { s: number[]; jump: number[]; sd: number[] } | null = null;
+    if (kernel.dimension === 1 && !view.interpolated) {
+      const n = view.x.length;
+      const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => view.x[a]! - view.x[b]!);
+      const xs = ord.map((i) => view.x[i]!);
+      const sorted = (M: Mat) => { const P = zeros(n, n); for (let a = 0; a < n; a++) for (let b = 0; b < n; b++) P.data[a * n + b] = M.data[ord[a]! * M.cols + ord[b]!]!; return P; };
+      const jp = diagonalSlopeJump(sorted(view.map(kernel.G)), xs);
+      const devs = deviations(reps);
+      const sd = jp.s.map(() => 0);
+      for (const dv of devs) { const jr = diagonalSlopeJump(sorted(view.map(dv)), xs); for (let q = 0; q < sd.length; q++) sd[q] += (jr.jump[q] ?? 0) ** 2; }
+      for (let q = 0; q < sd.length; q++) sd[q] = devs.length ? Math.sqrt(sd[q]! / devs.length) : 0;
+      profile = { s: jp.s, jump: jp.jump, sd };
+      if (verdict === 'no' && devs.length) for (const c of stepChangePoints(jp.s, jp.jump, sd)) change_points.push(sig(c, 4)!);
+    }
+    const iso = isotropic ? ` Isotropy: ${isotropic} (quarter-turn defect ${test.isoDefect!.toPrecision(3)}).` : '';
+    return {
+      finding: {
+        verdict,
+        defect: sig(test.defect) ?? NaN,
+        confidence: d.confidence,
+        noise_floor: sig(test.floor),
+        boundary_rank: test.rank,
+        ...(isotropic ? { isotropic, isotropic_confidence: isoConf } : {}),
+        change_points,
+      },
+      evidence: {
+        statistic: sig(test.defect),
+        noise_floor: sig(test.floor),
+        summary: `Part of the shifted-block difference beyond rank ${test.rank} (what an offset-plus-low-rank kernel cannot explain) ${test.defect.toPrecision(3)} against a noise floor of ${Number.isFinite(test.floor) ? test.floor.toPrecision(2) : 'unknown'}: ` +
+          (verdict === 'yes' ? 'consistent with a uniform medium.' : verdict === 'no' ? `the medium is not uniform${change_points.length ? ` (changes near ${change_points.join(', ')})` : ''}.` : 'the data do not decide.') + iso,
+        explanation,
+        plot: { kind: 'heatmap+profile', title: 'residual of the uniform-medium model', ...downsampleResidual(test.residual), slope_jump: profile ? { s: profile.s.map((v) => sig(v, 4)), jump: profile.jump.map((v) => sig(v, 4)), sd: profile.sd.map((v) => sig(v, 3)) } : null },
+      },
+    };
+  },
+};
+
+function downsampleResidual(R: Mat): Record<string, unknown> {
+  const max = 60;
+  const pickIdx = (n: number) => n <= max ? Array.from({ length: n }, (_, i) => i) : Array.from({ length: max }, (_, i) => Math.round((i * (n - 1)) / (max - 1)));
+  const ri = pickIdx(R.rows), ci = pickIdx(R.cols);
+  return { values: ri.map((i) => ci.map((j) => sig(R.data[i * R.cols + j]!, 3) ?? 0)) };
+}
+
