@@ -87,7 +87,7 @@ class SpecError extends Error {
   constructor(message: string, readonly position?: number) { super(message); }
 }
 
-interface Item { key: string; value: unknown; pos?: number }
+interface Item { key: string; value: unknown; pos?: number; keyPos?: number }
 
 export interface ParseOptions {
   /** name used in messages: "--operator" for an inline spec, the file name for a JSON file */
@@ -149,7 +149,7 @@ function inlineItems(spec: string): Item[] {
     const vlead = raw.length - raw.trimStart().length;
     const value = raw.trim();
     if (value === '') throw new SpecError(`"${key}" has no value`, p.pos + eq + 1);
-    items.push({ key, value, pos: p.pos + eq + 1 + vlead });
+    items.push({ key, value, pos: p.pos + eq + 1 + vlead, keyPos: p.pos + lead });
   }
   if (!items.length) throw new SpecError('empty operator spec', 0);
   return items;
@@ -188,7 +188,7 @@ const COEF_KEYS = ['a', 'b', 'c', 'e'] as const;
 function interpret(items: Item[], source: string): OperatorSpec {
   const seen = new Map<string, Item>();
   for (const it of items) {
-    if (seen.has(it.key)) throw new SpecError(`"${it.key}" is given twice`, it.pos);
+    if (seen.has(it.key)) throw new SpecError(`"${it.key}" is given twice`, it.keyPos ?? it.pos);
     seen.set(it.key, it);
   }
   const domainItem = seen.get('domain');
@@ -232,7 +232,7 @@ function parseDomainValue(it: Item): { interval: [number, number] } | { d2: PdeS
     throw new SpecError('domain must be [A, B], {"box": [[ax, bx], [ay, by]]} or {"disk": {"center": [x, y], "radius": r}}', it.pos);
   }
   if (typeof v !== 'string') throw new SpecError('domain must be A:B, box(ax,bx,ay,by) or disk(cx,cy,r)', it.pos);
-  const call = parseCall(v, it.pos);
+  const call = parseCall(v, it.pos, it.key);
   if (call) {
     const nums = call.args.map((a) => numberArg(a.text, it.pos === undefined ? undefined : it.pos + a.offset, `${call.name}()`));
     if (call.name === 'box') {
@@ -261,7 +261,7 @@ function checkInterval(a: unknown, b: unknown, it: Item): [number, number] {
 interface Call { name: string; args: { text: string; offset: number }[] }
 
 /** "name(arg, arg, ...)" with top-level comma splitting; null when the text is not a call. */
-function parseCall(text: string, pos: number | undefined): Call | null {
+function parseCall(text: string, pos: number | undefined, key?: string): Call | null {
   const m = /^\s*([A-Za-z_][A-Za-z0-9_]*)\s*\(/.exec(text);
   if (!m) return null;
   const open = m[0].length - 1;
@@ -270,7 +270,7 @@ function parseCall(text: string, pos: number | undefined): Call | null {
     if (text[i] === '(') depth++;
     else if (text[i] === ')') { depth--; if (depth === 0) { close = i; break; } }
   }
-  if (close < 0) throw new SpecError(`unbalanced parentheses in "${text}"`, pos === undefined ? undefined : pos + open);
+  if (close < 0) throw new SpecError(`${key ? `"${key}": ` : ''}unbalanced parentheses in "${text}"`, pos === undefined ? undefined : pos + open);
   if (text.slice(close + 1).trim() !== '') return null; // e.g. "exp(x)+1" is a formula, not a call
   const inner = text.slice(open + 1, close);
   const args: { text: string; offset: number }[] = [];
@@ -331,7 +331,7 @@ function parseCoef(it: Item, domain: [number, number]): CoefSpec {
     return { breaks, values };
   }
   if (typeof v !== 'string') throw new SpecError(`"${it.key}" must be a number, a formula of x or a piecewise value`, it.pos);
-  const call = parseCall(v, it.pos);
+  const call = parseCall(v, it.pos, it.key);
   if (call && (call.name === 'pw' || call.name === 'piecewise')) {
     if (call.args.length < 3 || call.args.length % 2 === 0) {
       throw new SpecError(`"${it.key}": pw(v0, x1, v1, x2, v2, ...) needs an odd number ≥ 3 of arguments`, it.pos);
@@ -382,7 +382,7 @@ function parseEnd(it: Item): EndCondition[] {
     const p = it.pos === undefined ? undefined : it.pos + offset + (part.length - part.trimStart().length);
     offset += part.length + 1;
     const text = part.trim();
-    const call = parseCall(text, p) ?? { name: text, args: [] };
+    const call = parseCall(text, p, it.key) ?? { name: text, args: [] };
     if (!/^[A-Za-z_][A-Za-z0-9_]*$/.test(call.name)) throw new SpecError(`"${it.key}": cannot read boundary condition "${text}"`, p);
     const nums = call.args.map((a) => numberArg(a.text, p === undefined ? undefined : p + a.offset, `"${it.key}"`));
     out.push(...namedEnd(call.name, nums, { ...it, pos: p }, text));
@@ -491,7 +491,7 @@ function interpretOde(seen: Map<string, Item>, domain: [number, number], source:
     if (C > 1 && cubic !== 0) throw new SpecError('"cubic" is supported for scalar operators only', cu.pos);
   }
   for (const [key, it] of seen) {
-    if (!used.has(key)) throw new SpecError(`unknown key "${key}" for a 1-D operator (known: domain, a, b, c, e, cubic, left, right, bc; for systems a1, c12, left2, ...; kernel)`, it.pos);
+    if (!used.has(key)) throw new SpecError(`unknown key "${key}" for a 1-D operator (known: domain, a, b, c, e, cubic, left, right, bc; for systems a1, c12, left2, ...; kernel)`, it.keyPos ?? it.pos);
   }
   return { kind: 'ode', dimension: 1, domain, components, coupling, cubic, source };
 }
@@ -541,7 +541,7 @@ function interpretPde(seen: Map<string, Item>, domain: PdeSpec['domain'], source
     if (allNeumann && c === 0) throw new SpecError('pure Neumann with c = 0 has no Green\'s function (constants are in the null space); set c > 0 or a Dirichlet side', seen.get('c')?.pos);
   }
   for (const [key, it] of seen) {
-    if (!used.has(key)) throw new SpecError(`unknown key "${key}" for a 2-D operator (known: domain, a, c, boundary, left, right, bottom, top; kernel)`, it.pos);
+    if (!used.has(key)) throw new SpecError(`unknown key "${key}" for a 2-D operator (known: domain, a, c, boundary, left, right, bottom, top; kernel)`, it.keyPos ?? it.pos);
   }
   return { kind: 'pde', dimension: 2, domain, a, c, sides, source };
 }
@@ -559,7 +559,7 @@ function interpretKernel(seen: Map<string, Item>, dimension: 1 | 2, d1: [number,
     checkFormula(homogeneous, dimension === 1 ? ['x'] : ['x', 'y'], h.pos, 'homogeneous');
   }
   for (const [key, it] of seen) {
-    if (!['kernel', 'homogeneous', 'domain'].includes(key)) throw new SpecError(`"${key}" cannot be combined with "kernel" (known: kernel, homogeneous, domain)`, it.pos);
+    if (!['kernel', 'homogeneous', 'domain'].includes(key)) throw new SpecError(`"${key}" cannot be combined with "kernel" (known: kernel, homogeneous, domain)`, it.keyPos ?? it.pos);
   }
   let domain: KernelFormulaSpec['domain'];
   if (dimension === 1) domain = d1;
