@@ -12,8 +12,6 @@ import { Progress, parseGrid, parseIntOpt } from './common.js';
 import { UsageError, InputError } from '../errors.js';
 import { withOutput } from '../io/output.js';
 import { writeStudy } from '../io/study.js';
-import type { Study } from '../types.js';
-import type { Mat } from '../linalg/dense.js';
 
 export const EXAMPLES_DIR = fileURLToPath(new URL('../../examples/', import.meta.url));
 export const DEMO_EXAMPLE = 'conveyor-oven';
@@ -36,16 +34,10 @@ export function readScenario(name: string): Scenario {
   }
 }
 
-interface SimModule {
-  parseOperator(spec: string, opts?: { label?: string }): unknown;
-  simulateStudy(op: unknown, opts: { pointsIn: Mat; pointsOut?: Mat; count: number; noise?: number; seed?: number; lengthScale?: number; title?: string }): { study: Study };
-}
-
 /** Simulate an example's study into `studyDir` (atomic). */
 export async function makeExampleStudy(name: string, studyDir: string): Promise<void> {
   const sc = readScenario(name);
-  // the simulator is another part of the program; imported lazily so `report` does not load it
-  const sim = await import('../simulate/index.js' as string) as SimModule;
+  const sim = await import('../simulate/index.js');
   const op = sim.parseOperator(sc.operator, { label: `examples/${name}/scenario.json operator` });
   const { study } = sim.simulateStudy(op, {
     pointsIn: parseGrid(sc.grid), pointsOut: sc.sensor_grid ? parseGrid(sc.sensor_grid) : undefined,
