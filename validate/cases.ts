@@ -1,0 +1,117 @@
+/**
+ * The validation suite's cases: studies simulated from known operators (our own specs, see
+ * docs/operator-spec.md), each with what a correct diagnosis must say. Expected values come
+ * from the operators themselves (closed forms in shared/references/greens-functions.md where one exists).
+ */
+export interface Expect {
+  self_adjoint?: 'yes' | 'no';
+  transport?: 'none' | '+x' | '-x';
+  translation_invariant?: 'yes' | 'no';
+  order?: 2 | 4;
+  locality?: 'local' | 'nonlocal';
+  oscillation?: 'yes' | 'no';
+  /** k of −u'' − k²u (entry b) */
+  wavenumber?: number;
+  screening?: 'yes' | 'no';
+  /** 1/κ of −u'' + κ²u (entry c) */
+  screeningLength?: number;
+  /** interface locations (an empty list means: there must be none) */
+  interfaces?: number[];
+  /** singular points other than the diagonal (empty list: none) */
+  singularities?: number[];
+  coupling?: 'none' | 'one-way' | 'two-way';
+  linearity?: 'linear' | 'nonlinear';
+  /** constant coefficients of the operator (checked against operator.terms' interior mean) */
+  coefficients?: { diffusion?: number; reaction?: number };
+}
+
+export interface Case {
+  name: string;
+  family: string;
+  spec: string;
+  /** 1-D points on the operator's domain (default 200 uniform); or a 2-D grid size */
+  n?: number;
+  grid2d?: number;
+  count?: number;
+  lengthScale?: number;
+  amplitudes?: [number, number];
+  /** distinct sensors: this many seeded-random sensors, actuators uniform (n of them) */
+  randomSensors?: number;
+  /** part of the fast subset run by `npm test` */
+  fast?: boolean;
+  expect: Expect;
+}
+
+export const cases: Case[] = [
+  {
+    name: 'uniform-diffusion', family: 'constant coefficients', spec: 'a=1', fast: true,
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'no', screening: 'no', interfaces: [], singularities: [], coefficients: { diffusion: 1 } },
+  },
+  {
+    name: 'variable-conductivity', family: 'variable coefficients', spec: 'a=1+x^2',
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', interfaces: [] },
+  },
+  {
+    name: 'transport-plus-x', family: 'transport', spec: 'a=0.05; b=1', fast: true,
+    expect: { self_adjoint: 'no', transport: '+x', order: 2, locality: 'local', oscillation: 'no', interfaces: [] },
+  },
+  {
+    name: 'transport-minus-x', family: 'transport', spec: 'a=0.05; b=-1',
+    expect: { self_adjoint: 'no', transport: '-x', order: 2, locality: 'local', oscillation: 'no', interfaces: [] },
+  },
+  {
+    name: 'helmholtz-k15', family: 'wave', spec: 'c=-225', fast: true,
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'yes', wavenumber: 15, screening: 'no', interfaces: [], coefficients: { diffusion: 1, reaction: -225 } },
+  },
+  {
+    name: 'screened-kappa10', family: 'screening', spec: 'c=100',
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'no', screening: 'yes', screeningLength: 0.1, interfaces: [], coefficients: { diffusion: 1, reaction: 100 } },
+  },
+  {
+    name: 'bar-one-interface', family: 'piecewise', spec: 'a=pw(1,0.4,10)',
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.4] },
+  },
+  {
+    name: 'bar-two-interfaces', family: 'piecewise', spec: 'a=pw(1,0.3,4,0.7,1)',
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.3, 0.7] },
+  },
+  {
+    name: 'diffusion-joined-to-belt', family: 'piecewise', spec: 'a=pw(1,0.55,0.05); b=pw(0,0.55,1)',
+    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, interfaces: [0.55] },
+  },
+  {
+    name: 'internal-layer', family: 'internal layer', spec: 'a=0.0005; b=2*(0.45-x); left=dirichlet(1); right=dirichlet(-1)',
+    expect: { self_adjoint: 'no', order: 2, singularities: [0.45] },
+  },
+  {
+    name: 'clamped-beam', family: 'fourth order', spec: 'e=1', fast: true,
+    expect: { self_adjoint: 'yes', transport: 'none', order: 4, locality: 'local', oscillation: 'no', interfaces: [] },
+  },
+  {
+    name: 'gaussian-nonlocal', family: 'non-local', spec: 'kernel=exp(-((x-s)/0.15)^2)',
+    expect: { self_adjoint: 'yes', transport: 'none', locality: 'nonlocal' },
+  },
+  {
+    name: 'one-way-coupled', family: 'systems', spec: 'a1=1; a2=1; c21=20', count: 150,
+    expect: { coupling: 'one-way', self_adjoint: 'no' },
+  },
+  {
+    name: 'two-way-coupled', family: 'systems', spec: 'a1=1; a2=1; c12=10; c21=10', count: 150,
+    expect: { coupling: 'two-way', self_adjoint: 'yes' },
+  },
+  {
+    name: 'plate-2d', family: '2-D', spec: 'domain=box(0,1,0,1)', grid2d: 24, count: 150, lengthScale: 0.1,
+    expect: { self_adjoint: 'yes', order: 2, locality: 'local', oscillation: 'no' },
+  },
+  {
+    name: 'distinct-sensors', family: 'sensors ≠ actuators', spec: 'a=1', n: 120, randomSensors: 150,
+    expect: { transport: 'none', order: 2, oscillation: 'no', interfaces: [] },
+  },
+  {
+    name: 'cubic-nonlinear', family: 'nonlinear', spec: 'a=1; cubic=30', amplitudes: [0.2, 5],
+    expect: { linearity: 'nonlinear' },
+  },
+];
+
+export const noiseLevels = [0, 0.01, 0.1, 1.0];
+export const seeds = [1, 2];
