@@ -1,0 +1,31 @@
+/**
+ * The fast subset of the validation suite (validate/cases.ts, cases marked `fast`): studies
+ * simulated from known operators — expected verdicts follow from the operators, and the
+ * wavenumber/coefficients from shared/references/greens-functions.md entries (a), (b), (d), (f1).
+ */
+import { describe, it, expect } from 'vitest';
+import { cases } from '../../validate/cases.js';
+import { runCase } from '../../validate/suite.js';
+
+describe('validation subset at noise 0.01', () => {
+  for (const c of cases.filter((x) => x.fast)) {
+    it(`${c.name}: every verdict right`, () => {
+      const r = runCase(c, 0.01, 1);
+      expect(r.error).toBeUndefined();
+      const misses = r.checks.filter((k) => k.outcome !== 'right').map((k) => `${k.what}: got ${k.got}, want ${k.want}`);
+      expect(misses).toEqual([]);
+      expect(r.checks.length).toBeGreaterThan(0);
+    });
+  }
+});
+
+describe('validation subset at noise 1.0', () => {
+  for (const c of cases.filter((x) => x.fast)) {
+    it(`${c.name}: no wrong verdict given with confidence ≥ 0.8`, () => {
+      const r = runCase(c, 1.0, 1);
+      expect(r.error).toBeUndefined();
+      const confidentWrong = r.checks.filter((k) => k.outcome === 'wrong' && k.confidence >= 0.8).map((k) => `${k.what}: got ${k.got} (${k.confidence.toFixed(2)}), want ${k.want}`);
+      expect(confidentWrong).toEqual([]);
+    });
+  }
+});
