@@ -298,6 +298,8 @@ export interface KinkFit {
   constraint: Constraint;
   map: ParamMap;
   solver: RidgeSolver;
+  /** the reduced parameters */
+  eta: Float64Array;
   /** θ in the layout of the system it was solved in (zeros beyond K) */
   theta: Float64Array;
   gcv: GcvPoint;
@@ -309,7 +311,7 @@ export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: Ki
   const red = reduceSystem(sys, Pfull, map);
   const solver = new RidgeSolver(red.sys, red.P, choice.gcv.lambda);
   const eta = solver.solveVec(red.sys.r);
-  return { K: choice.K, order: choice.order, lambda: choice.gcv.lambda, constraint, map, solver, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
+  return { K: choice.K, order: choice.order, lambda: choice.gcv.lambda, constraint, map, solver, eta, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
 }
 
 export function expand(map: ParamMap, eta: Float64Array, P: number): Float64Array {

@@ -1,0 +1,193 @@
+/**
+ * The estimator's library API (issue 3): forcing/response pairs → kernel G(x, s), homogeneous
+ * part u_h, and honest statements of how well the data determine them (fit.json).
+ *
+ *   fitStudy(study, { seed, assume, replicates, progress }) → FitResult
+ *   refit(study, previous, 'symmetric' | 'translation') → FitResult (structure-aware refit)
+ *
+ * Method and sources: docs/fit-method.md. Pure: no file system; randomness only from the seed.
+ */
+import type { Study, FitResult, FitReport, Kernel, NoiseFloor } from '../types.js';
+import { relativeError, frobenius } from '../linalg/dense.js';
+import { Rng } from '../linalg/rng.js';
+import { DataError } from '../errors.js';
+import { prepare, measured, type Prepared } from './prepare.js';
+import { fitPath1d } from './path1d.js';
+import { fitPathSpan } from './span.js';
+import { coverage } from './coverage.js';
+import type { CoreFit } from './core.js';
+import type { Constraint } from './kink1d.js';
+
+export type { Constraint } from './kink1d.js';
+
+export interface FitOptions {
+  seed?: number;
+  assume?: 'none' | 'symmetric' | 'translation';
+  /** number of bootstrap replicates (default 30; 20 for large problems) */
+  replicates?: number;
+  progress?: (msg: string) => void;
+}
+
+/** z above which the scaling test calls a study nonlinear (one-sided, p ≈ 0.001 under a Gaussian null) */
+export const NONLINEAR_Z = 3;
+/** z above which the scaling test is inconclusive rather than linear (p ≈ 0.02) */
+export const INCONCLUSIVE_Z = 2;
+
+function defaultReplicates(prep: Prepared): number {
+  const size = prep.nOut * prep.cOut * prep.nIn * prep.cIn;
+  return size > 250_000 ? 20 : 30;
+}
+
+function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void): CoreFit {
+  const sets = Array.from({ length: prep.nOut * prep.cOut }, (_, c) => measured(prep, c));
+  const rng = new Rng(seed);
+  const sigmaKnown = study.noise?.sigma !== undefined && study.noise.sigma > 0 ? study.noise.sigma : undefined;
+  const common = { rng, replicates, sigmaKnown, progress, scaling: true };
+  if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint });
+  return fitPathSpan(prep, sets, { ...common, constraint });
+}
+
+function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0: number): FitResult {
+  const kernel: Kernel = {
+    dimension: study.dimension,
+    pointsOut: study.outputs.points,
+    pointsIn: study.inputs.points,
+    weightsIn: prep.weights,
+    G: core.G,
+    homogeneous: core.uh,
+    components: { in: prep.cIn, out: prep.cOut },
+    domain: study.domain,
+    files: study.files,
+  };
+  const normG = frobenius(core.G);
+  let spread = 0;
+  for (const Gr of core.replicates) { const d = relativeError(Gr, core.G); spread += d * d; }
+  const predG = core.replicates.length ? Math.sqrt(spread / core.replicates.length) : NaN;
+  let normUh = 0;
+  for (const v of core.uh) normUh += v * v;
+  normUh = Math.sqrt(normUh);
+  let predUh: number | null = null;
+  if (core.homogeneousReplicates.length && normUh > 0) {
+    let s = 0;
+    for (const u of core.homogeneousReplicates) { let d = 0; for (let i = 0; i < u.length; i++) d += (u[i]! - core.uh[i]!) ** 2; s += d; }
+    predUh = Math.sqrt(s / core.homogeneousReplicates.length) / normUh;
+  }
+  const sigma = study.noise?.sigma !== undefined ? study.noise.sigma : core.sigma;
+  const cov = coverage(prep, core.G, sigma, !core.complete);
+  const unidentified = 1 - cov.identified_energy_fraction;
+  // complete: the model is not confined to the span, every input point is forced, and the data excite at
+  // least as many input directions as the model has input-side degrees of freedom
+  const complete = core.complete && cov.unexcited_inputs === 0 && cov.identified_rank >= core.inputDof;
+  const covNote: string[] = [];
+  if (!core.complete) covNote.push(`the kernel is identified only on the ${cov.identified_rank} input directions the forcings excite above the noise (of ${cov.input_dimension}); it is G restricted to the forcings' span, not the whole Green's function`);
+  else if (cov.identified_rank < core.inputDof) covNote.push(`the forcings excite only ${cov.identified_rank} input directions above the noise, fewer than the ${core.inputDof} input-side functions of the model: the kernel's dependence on the source point is partly set by the model's smoothness prior, not by the data`);
+  if (core.complete && unidentified > 0) covNote.push(`${(100 * unidentified).toPrecision(2)}% of the fitted kernel's energy lies in input directions not excited above the noise (filled in by the model)`);
+  if (cov.unexcited_inputs > 0) covNote.push(`${cov.unexcited_inputs} input point(s) are never forced: their kernel columns are extrapolated, not measured`);
+  if (complete) covNote.push(`the forcings excite ${cov.identified_rank} input directions above the noise, at least the ${core.inputDof} the model needs`);
+  // linearity verdict
+  let linearity: FitReport['linearity'];
+  const sc = core.scaling;
+  if (!sc || sc.nulls.length < 5) {
+    linearity = { verdict: 'not-tested', statistic: null, threshold: null, note: 'the scaling test needs at least 10 experiments, each sensor measured in both amplitude halves' };
+  } else {
+    const m = sc.nulls.reduce((a, b) => a + b, 0) / sc.nulls.length;
+    const sd = Math.sqrt(sc.nulls.reduce((a, b) => a + (b - m) ** 2, 0) / (sc.nulls.length - 1));
+    // the null spread plus the fit's own error: a deterministic difference smaller than the kernel's
+    // uncertainty is not evidence of nonlinearity
+    const scale = Math.sqrt(sd * sd + sc.fitError * sc.fitError);
+    const z = scale > 0 ? (sc.statistic - m) / scale : (sc.statistic > m ? Infinity : 0);
+    const verdict = z > NONLINEAR_Z ? 'nonlinear' : z > INCONCLUSIVE_Z ? 'inconclusive' : 'linear';
+    const ratio = sc.highAmplitude / Math.max(sc.lowAmplitude, 1e-300);
+    linearity = {
+      verdict,
+      statistic: z,
+      threshold: NONLINEAR_Z,
+      note: `kernels fitted to the low- and high-amplitude halves of the experiments (amplitudes ${sc.lowAmplitude.toPrecision(3)}–${sc.highAmplitude.toPrecision(3)}, ratio ${ratio.toPrecision(3)}) differ by ${sc.statistic.toPrecision(3)} (relative, in response space), against ${m.toPrecision(3)} ± ${scale.toPrecision(2)} for a linear system with the same noise and the fit's own error: z = ${Number.isFinite(z) ? z.toFixed(2) : 'inf'}` +
+        (verdict === 'nonlinear' ? '. The kernel is a local linearisation around the forcing amplitudes used, not a Green\'s function.' : '') +
+        (ratio < 1.5 ? ' The forcing amplitudes vary little, so the scaling test has little power.' : ''),
+    };
+  }
+  const relResidual = Math.sqrt(core.gcvMse * core.nObs / Math.max(core.yy, 1e-300));
+  const report: FitReport = {
+    format: 'kerneldx-fit/1',
+    method: core.method,
+    hyperparameters: core.hyper,
+    experiments: prep.N,
+    relative_residual: relResidual,
+    noise_estimate: sigma,
+    noise_source: study.noise?.sigma !== undefined ? 'study' : 'estimated',
+    uncertainty: {
+      relative_kernel_error: predG,
+      relative_homogeneous_error: predUh,
+      method: `parametric bootstrap: ${core.replicates.length} refits with fixed hyper-parameters to Ĝ W f + û_h + N(0, σ²) noise; spread about the fit (variance and shrinkage bias)`,
+      replicates: core.replicates.length,
+    },
+    coverage: {
+      identified_energy_fraction: cov.identified_energy_fraction,
+      identified_rank: cov.identified_rank,
+      complete,
+      note: covNote.join('; '),
+    },
+    linearity,
+    refits: [{ constraint: core.constraint, relative_residual: relResidual, used: true }],
+    seconds: (Date.now() - t0) / 1000,
+    seed,
+  };
+  const extra = report as FitReport & Record<string, unknown>;
+  extra.noise_estimated = core.sigma;
+  extra.coverage_detail = { excited_directions: cov.excited_directions, input_dimension: cov.input_dimension, unexcited_inputs: cov.unexcited_inputs };
+  extra.notes = [...prep.notes, ...core.notes];
+  extra.kernel_norm = normG;
+  const noise: NoiseFloor = {
+    replicates: core.replicates,
+    homogeneousReplicates: core.homogeneousReplicates,
+    source: 'bootstrap',
+    assumption: `responses carry independent Gaussian noise of std ${sigma.toPrecision(3)} (${report.noise_source}); the replicates are refits of the fitted kernel to data with fresh noise of that size`,
+  };
+  return { kernel, report, noise };
+}
+
+export function fitStudy(study: Study, opts: FitOptions = {}): FitResult {
+  const t0 = Date.now();
+  const seed = opts.seed ?? 0;
+  const progress = opts.progress ?? (() => {});
+  const prep = prepare(study);
+  const R = opts.replicates ?? defaultReplicates(prep);
+  if (!Number.isInteger(R) || R < 2) throw new DataError('replicates must be an integer ≥ 2');
+  const assume = opts.assume ?? 'none';
+  const base = assemble(study, prep, runCore(study, prep, 'none', seed, R, progress), seed, t0);
+  if (assume === 'none') return base;
+  const other = refitFrom(study, prep, base, assume, seed, R, progress, true);
+  other.report.seconds = (Date.now() - t0) / 1000;
+  return other;
+}
+
+function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint: 'symmetric' | 'translation', seed: number, R: number, progress: (m: string) => void, forced: boolean): FitResult {
+  const t0 = Date.now();
+  const core = runCore(study, prep, constraint, seed, R, progress);
+  const res = assemble(study, prep, core, seed, t0);
+  const prevEntry = previous.report.refits.find((r) => r.constraint === 'none') ?? { constraint: 'none', relative_residual: previous.report.relative_residual, used: true };
+  const applied = core.constraint === constraint;
+  const useRefit = applied && (forced || res.report.relative_residual <= prevEntry.relative_residual);
+  const refits = [
+    { constraint: 'none', relative_residual: prevEntry.relative_residual, used: !useRefit },
+    { constraint, relative_residual: applied ? res.report.relative_residual : NaN, used: useRefit },
+  ];
+  if (!applied) refits[1]!.relative_residual = prevEntry.relative_residual;
+  const chosen = useRefit ? res : previous;
+  const out: FitResult = { kernel: chosen.kernel, noise: chosen.noise, report: { ...chosen.report, refits } };
+  const extra = out.report as FitReport & Record<string, unknown>;
+  extra.refit_note = !applied
+    ? `the ${constraint} constraint could not be applied to this study; the unconstrained kernel is used`
+    : useRefit
+      ? `the ${constraint} refit is used${forced ? ' (assumed by the user)' : ' (its cross-validated residual is not larger)'}`
+      : `the ${constraint} refit fits worse (cross-validated residual ${res.report.relative_residual.toPrecision(3)} vs ${prevEntry.relative_residual.toPrecision(3)}); the unconstrained kernel is used`;
+  return out;
+}
+
+/** Structure-aware refit (the diagnosis calls it once it has established the structure). */
+export function refit(study: Study, previous: FitResult, constraint: 'symmetric' | 'translation'): FitResult {
+  const prep = prepare(study);
+  const R = previous.noise.replicates.length || defaultReplicates(prep);
+  return refitFrom(study, prep, previous, constraint, previous.report.seed, R, () => {}, false);
+}
