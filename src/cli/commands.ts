@@ -5,6 +5,7 @@ import { registerDiagnose, registerRun } from './diagnose.js';
 import { registerReport } from './report.js';
 import { registerDemo } from './demo.js';
 import { registerSimulate } from './simulate.js';
+import { registerDesign } from './design.js';
 
 export type Register = (program: Command, io: Io, setExit: (code: number) => void) => void;
 
@@ -14,4 +15,5 @@ export const commands: Register[] = [
   registerReport,
   registerDemo,
   registerSimulate,
+  registerDesign,
 ];

@@ -26,18 +26,33 @@ export function formatOf(path: string, label = path): ArrayFormat {
   throw new InputError({ file: label }, `unknown array format "${ext || '(no extension)'}"; use .csv, .npy or .json`);
 }
 
-/** Read a numeric matrix (1-D files become one column for CSV/JSON, one row... see `vector`). */
-export function readMatrix(path: string, opts: ReadOptions = {}): Mat {
+export interface ArrayRead {
+  matrix: Mat;
+  format: ArrayFormat;
+  /** the location to report for data row i (0-based): CSV line numbers (header included), else i + 1 */
+  rowOf: (i: number) => number;
+}
+
+/** Read a numeric matrix with the information needed to point at its rows in messages. */
+export function readArray(path: string, opts: ReadOptions = {}): ArrayRead {
   const label = opts.label ?? path;
   const fmt = formatOf(path, label);
   if (!existsSync(path)) throw new InputError({ file: label }, 'file not found');
   if (statSync(path).isDirectory()) throw new InputError({ file: label }, 'is a directory, expected a file');
   let m: Mat;
-  if (fmt === 'csv') m = parseCsv(readFileSync(path, 'utf8'), label, opts.allowMissing ?? false);
-  else if (fmt === 'npy') m = parseNpy(readFileSync(path), label);
+  let first = 1;
+  if (fmt === 'csv') {
+    const r = parseCsvLines(readFileSync(path, 'utf8'), label, opts.allowMissing ?? false);
+    m = r.matrix; first = r.firstDataLine;
+  } else if (fmt === 'npy') m = parseNpy(readFileSync(path), label);
   else m = parseJsonArray(readFileSync(path, 'utf8'), label);
   checkValues(m, label, fmt, opts.allowMissing ?? false);
-  return m;
+  return { matrix: m, format: fmt, rowOf: (i) => first + i };
+}
+
+/** Read a numeric matrix. A 1-D NPY or JSON array becomes one column. */
+export function readMatrix(path: string, opts: ReadOptions = {}): Mat {
+  return readArray(path, opts).matrix;
 }
 
 /** Read a vector: a 1-D array, or a 2-D array with one row or one column. */
@@ -51,11 +66,18 @@ export function readVector(path: string, opts: ReadOptions = {}): Float64Array {
 function isNumericToken(t: string): boolean {
   const s = t.trim();
   if (s === '') return true;
-  return /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/.test(s) || /^[+-]?(nan|inf|infinity)$/i.test(s);
+  return NUMBER_RE.test(s) || /^[+-]?(nan|inf|infinity)$/i.test(s);
 }
 
 export function parseCsv(text: string, label: string, allowMissing: boolean): Mat {
-  const lines = text.split(/\r?\n/);
+  return parseCsvLines(text, label, allowMissing).matrix;
+}
+
+const NUMBER_RE = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+
+/** CSV parse that also returns the 1-based line number of the first data row. */
+export function parseCsvLines(text: string, label: string, allowMissing: boolean): { matrix: Mat; firstDataLine: number } {
+  const lines = (text.charCodeAt(0) === 0xfeff ? text.slice(1) : text).split(/\r?\n/);
   // drop trailing empty lines
   let end = lines.length;
   while (end > 0 && lines[end - 1]!.trim() === '') end--;
@@ -67,6 +89,7 @@ export function parseCsv(text: string, label: string, allowMissing: boolean): Ma
   if (!first.every(isNumericToken) || first.every((t) => t.trim() === '')) start++;
   if (start >= end) throw new InputError({ file: label }, 'file has a header but no data rows');
   let cols = -1;
+  const firstDataLine = start + 1;
   const nRows = end - start;
   let data: Float64Array | null = null;
   for (let li = start; li < end; li++) {
@@ -87,18 +110,18 @@ export function parseCsv(text: string, label: string, allowMissing: boolean): Ma
       if (raw === '' || /^[+-]?nan$/i.test(raw)) {
         if (!allowMissing) throw new InputError({ file: label, row: rowNo, column: j + 1 }, raw === '' ? 'empty field (missing values are allowed only in responses)' : 'NaN (missing values are allowed only in responses)');
         v = NaN;
-      } else {
+      } else if (NUMBER_RE.test(raw)) {
         v = Number(raw);
-        if (Number.isNaN(v)) {
-          if (/^[+-]?inf(inity)?$/i.test(raw)) v = raw.startsWith('-') ? -Infinity : Infinity;
-          else throw new InputError({ file: label, row: rowNo, column: j + 1 }, `not a number: "${truncate(raw)}"`);
-        }
-        if (!Number.isFinite(v)) throw new InputError({ file: label, row: rowNo, column: j + 1 }, `infinite value "${truncate(raw)}"`);
+        if (!Number.isFinite(v)) throw new InputError({ file: label, row: rowNo, column: j + 1 }, `infinite value "${truncate(raw)}" (overflows float64)`);
+      } else if (/^[+-]?inf(inity)?$/i.test(raw)) {
+        throw new InputError({ file: label, row: rowNo, column: j + 1 }, `infinite value "${truncate(raw)}"`);
+      } else {
+        throw new InputError({ file: label, row: rowNo, column: j + 1 }, `not a number: "${truncate(raw)}"${allowMissing ? ' (write a missing value as an empty field or NaN)' : ''}`);
       }
       data![o + j] = v;
     }
   }
-  return { rows: nRows, cols, data: data! };
+  return { matrix: { rows: nRows, cols, data: data! }, firstDataLine };
 }
 
 function truncate(s: string): string {

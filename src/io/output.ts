@@ -3,22 +3,41 @@
  * moved under --out only when the command has succeeded, so a failure leaves nothing
  * half-written (interface.md §4).
  */
-import { mkdirSync, writeFileSync, renameSync, rmSync, existsSync, readdirSync, statSync } from 'node:fs';
+import { mkdirSync, writeFileSync, renameSync, rmSync, rmdirSync, existsSync, readdirSync, statSync } from 'node:fs';
 import { dirname, join, resolve, basename, relative, sep } from 'node:path';
 import { createHash } from 'node:crypto';
+
+/** stages not yet committed or aborted: removed if the process exits or is interrupted first */
+const live = new Set<OutputStage>();
+let hooked = false;
+function hookExit(): void {
+  if (hooked) return;
+  hooked = true;
+  process.once('exit', () => { for (const s of [...live]) s.abort(); });
+  for (const sig of ['SIGINT', 'SIGTERM'] as const) {
+    process.once(sig, () => {
+      for (const s of [...live]) s.abort();
+      process.exit(sig === 'SIGINT' ? 130 : 143);
+    });
+  }
+}
 
 export class OutputStage {
   readonly target: string;
   readonly stage: string;
   private done = false;
+  /** the first parent folder this stage had to create (removed again on abort if still empty) */
+  private createdParent: string | undefined;
 
   constructor(outDir: string) {
     this.target = resolve(outDir);
     const parent = dirname(this.target);
-    mkdirSync(parent, { recursive: true });
+    this.createdParent = mkdirSync(parent, { recursive: true });
     const tag = createHash('sha1').update(`${process.pid}:${Date.now()}:${Math.random()}`).digest('hex').slice(0, 8);
     this.stage = join(parent, `.${basename(this.target)}.kdx-partial-${tag}`);
     mkdirSync(this.stage, { recursive: true });
+    live.add(this);
+    hookExit();
   }
 
   /** absolute path inside the stage for a relative output path */
@@ -45,12 +64,21 @@ export class OutputStage {
     }
     rmSync(this.stage, { recursive: true, force: true });
     this.done = true;
+    live.delete(this);
   }
 
+  /** remove everything staged, and the parent folders this stage created if they are empty */
   abort(): void {
     if (this.done) return;
     rmSync(this.stage, { recursive: true, force: true });
     this.done = true;
+    live.delete(this);
+    if (this.createdParent) {
+      for (let d = dirname(this.target); d.length >= this.createdParent.length; d = dirname(d)) {
+        try { if (readdirSync(d).length === 0) rmdirSync(d); else break; } catch { break; }
+        if (d === this.createdParent) break;
+      }
+    }
   }
 }
 

@@ -7,7 +7,7 @@ import { join, resolve, isAbsolute, relative } from 'node:path';
 import { InputError } from '../errors.js';
 import type { Study, Domain, Dimension, FieldData, InputFile } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { readMatrix, encodeNpy, encodeCsv } from './arrays.js';
+import { readArray, encodeNpy, encodeCsv } from './arrays.js';
 import { sha256File, type OutputStage } from './output.js';
 
 export const STUDY_FORMAT = 'kerneldx-study/1';
@@ -58,7 +58,7 @@ function displayPath(dir: string, p: string): string {
   return rel.startsWith('..') ? p : rel;
 }
 
-function checkPoints(points: Mat, dimension: Dimension, label: string): void {
+function checkPoints(points: Mat, dimension: Dimension, label: string, rowOf: (i: number) => number): void {
   if (points.cols !== dimension) {
     throw new InputError({ file: label, column: points.cols > dimension ? dimension + 1 : undefined },
       `points have ${points.cols} column(s) but the study's dimension is ${dimension}`);
@@ -68,24 +68,30 @@ function checkPoints(points: Mat, dimension: Dimension, label: string): void {
   for (let i = 0; i < points.rows; i++) {
     const key = Array.from(points.data.subarray(i * dimension, (i + 1) * dimension), (v) => v.toPrecision(12)).join(',');
     const prev = seen.get(key);
-    if (prev !== undefined) throw new InputError({ file: label, row: i + 1 }, `duplicate point (same as data row ${prev + 1})`);
+    if (prev !== undefined) throw new InputError({ file: label, row: rowOf(i) }, `duplicate point (same as row ${rowOf(prev)})`);
     seen.set(key, i);
   }
 }
 
 function readField(dir: string, raw: unknown, side: 'inputs' | 'outputs', dimension: Dimension, manifest: string, files: InputFile[]): FieldData {
   if (!raw || typeof raw !== 'object') throw new InputError({ file: manifest }, `"${side}" must be an object with points, values and components`);
-  const f = raw as { points?: unknown; values?: unknown; components?: unknown };
+  const f = raw as { points?: unknown; values?: unknown; components?: unknown; todo?: unknown };
+  const todo = f.todo === undefined ? undefined : String(f.todo);
   const comps = f.components === undefined ? 1 : f.components;
   if (typeof comps !== 'number' || !Number.isInteger(comps) || comps < 1) throw new InputError({ file: manifest }, `${side}.components must be a positive integer`);
   const pPath = resolveIn(dir, f.points, manifest, `${side}.points`);
   const vPath = resolveIn(dir, f.values, manifest, `${side}.values`);
   const pLabel = displayPath(dir, pPath), vLabel = displayPath(dir, vPath);
-  const points = readMatrix(pPath, { label: pLabel });
+  const pRead = readArray(pPath, { label: pLabel });
+  const points = pRead.matrix;
   // a 1-D study's points may come as one row
-  const pts = dimension === 1 && points.rows === 1 && points.cols > 1 ? { rows: points.cols, cols: 1, data: points.data } : points;
-  checkPoints(pts, dimension, pLabel);
-  const values = readMatrix(vPath, { label: vLabel, allowMissing: side === 'outputs' });
+  const asRow = dimension === 1 && points.rows === 1 && points.cols > 1;
+  const pts = asRow ? { rows: points.cols, cols: 1, data: points.data } : points;
+  checkPoints(pts, dimension, pLabel, asRow ? () => pRead.rowOf(0) : pRead.rowOf);
+  if (side === 'outputs' && !existsSync(vPath) && todo !== undefined) {
+    throw new InputError({ file: vLabel }, `file not found: this study is a plan written by \`kerneldx design\` and still needs the measured responses. ${todo}`);
+  }
+  const values = readArray(vPath, { label: vLabel, allowMissing: side === 'outputs' }).matrix;
   if (values.cols % comps !== 0) {
     throw new InputError({ file: vLabel }, `${values.cols} columns do not divide into ${comps} components`);
   }
@@ -113,10 +119,11 @@ export function readStudy(dirArg: string): Study {
   const domain = parseDomain(m.domain, dimension, mLabel);
   const inputs = readField(root, m.inputs, 'inputs', dimension, mLabel, files);
   const outputs = readField(root, m.outputs, 'outputs', dimension, mLabel, files);
-  const fLabel = files[1]!.path, rLabel = files[3]!.path;
+  // files: study.json, input points, forcings, output points, responses
+  const fLabel = files[2]!.path, rLabel = files[4]!.path;
   if (inputs.values.rows !== outputs.values.rows) {
-    throw new InputError({ file: rLabel, row: Math.min(inputs.values.rows, outputs.values.rows) + 1 },
-      `${outputs.values.rows} experiment row(s) of responses but ${inputs.values.rows} of forcings (${fLabel}); row j of each must be the same experiment`);
+    throw new InputError({ file: rLabel },
+      `${outputs.values.rows} experiment row(s) of responses but ${inputs.values.rows} of forcings in ${fLabel}; row j of each must be the same experiment`);
   }
   // an experiment whose responses are all missing carries nothing
   let anyMeasured = false;
@@ -144,8 +151,12 @@ export interface StudyWriteOptions {
   at?: string;
   /** array format for values (default npy); points are always CSV for readability */
   format?: 'npy' | 'csv';
-  /** write only the forcing side and a half-filled manifest (design) */
+  /** write only the forcing side (plus response points, if any) and a half-filled manifest (design) */
   forcingsOnly?: boolean;
+  /** forcingsOnly: the responses file the manifest expects (default responses.csv) */
+  responsesFile?: string;
+  /** forcingsOnly: the note left in outputs.todo for the experimenter */
+  todo?: string;
 }
 
 export function studyManifest(study: Study, opts: StudyWriteOptions = {}): Record<string, unknown> {
@@ -155,7 +166,9 @@ export function studyManifest(study: Study, opts: StudyWriteOptions = {}): Recor
     title: study.title ?? '',
     dimension: study.dimension,
     inputs: { points: 'forcing_points.csv', values: `forcings.${ext}`, components: study.inputs.components },
-    outputs: { points: 'response_points.csv', values: `responses.${ext}`, components: study.outputs.components },
+    outputs: opts.forcingsOnly
+      ? { points: 'response_points.csv', values: opts.responsesFile ?? 'responses.csv', components: study.outputs.components, ...(opts.todo ? { todo: opts.todo } : {}) }
+      : { points: 'response_points.csv', values: `responses.${ext}`, components: study.outputs.components },
     domain: study.domain,
   };
   if (study.units) man.units = study.units;
@@ -175,9 +188,9 @@ export function writeStudy(stage: OutputStage, study: Study, opts: StudyWriteOpt
   const put = (name: string, m: Mat) => stage.write(join(at, name), ext === 'npy' ? encodeNpy(m) : encodeCsv(m));
   stage.write(join(at, 'forcing_points.csv'), encodeCsv(study.inputs.points, pointsHeader(study.dimension)));
   put(`forcings.${ext}`, study.inputs.values);
-  if (!opts.forcingsOnly) {
+  if (!opts.forcingsOnly || study.outputs.points.rows > 0) {
     stage.write(join(at, 'response_points.csv'), encodeCsv(study.outputs.points, pointsHeader(study.dimension)));
-    put(`responses.${ext}`, study.outputs.values);
   }
+  if (!opts.forcingsOnly) put(`responses.${ext}`, study.outputs.values);
   stage.write(join(at, 'study.json'), JSON.stringify(studyManifest(study, opts), null, 2) + '\n');
 }
