@@ -65,7 +65,7 @@ export function symParts(G: Mat): { sym: Mat; anti: Mat } {
  * points per side first (every stride-th point; each keeps the weights of the points it stands for), which keeps the leading
  * values and costs a bounded time. For scalar kernels with coinciding points only.
  */
-export function weightedSingularValues(k: Kernel, maxPoints = 240): Float64Array | null {
+export function weightedSingularValues(k: Kernel, maxPoints = 160): Float64Array | null {
   if (!samePoints(k) || k.components.in !== 1) return null;
   const n = k.pointsIn.rows;
   // a uniform integer stride: uneven thinning of a kinked kernel puts steps into the spectrum

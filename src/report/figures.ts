@@ -140,7 +140,7 @@ export function spectrumFigure(k: Kernel, F: Findings): Figure | null {
     const s = weightedSingularValues(k);
     if (!s) return null;
     sv = Array.from(s);
-    source = 'the dossier (Nyström singular values of the fitted kernel, thinned to ≤ 240 points)';
+    source = 'the dossier (Nyström singular values of the fitted kernel, thinned to ≤ 160 points)';
   }
   const err = pick(plot, ['errors', 'error', 'spread', 'sigma_error']);
   const K = sv.length;

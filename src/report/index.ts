@@ -63,6 +63,10 @@ export function loadFindings(dirArg: string): LoadedFindings {
   const named = typeof F.kernel_dir === 'string' ? F.kernel_dir
     : typeof kref === 'string' ? kref
       : kref && typeof kref === 'object' ? (typeof kref.dir === 'string' ? kref.dir : typeof kref.path === 'string' ? kref.path : undefined) : undefined;
+  if (!(F.study && typeof F.study === 'object')) {
+    const st = studyFromAudit(F);
+    if (st) (F as Record<string, unknown>).study = st;
+  }
   let kernelDir: string | null = null;
   if (named) {
     kernelDir = isAbsolute(named) ? named : join(dir, named);
@@ -76,6 +80,29 @@ export function loadFindings(dirArg: string): LoadedFindings {
     for (const f of kernel.files ?? []) files.push({ path: rel ? `${rel}/${f.path}` : f.path, sha256: f.sha256 });
   }
   return { findings: F, kernel, kernelDir, files };
+}
+
+/**
+ * Findings without a `study` block: look for the study folder among the audit's command-line
+ * arguments and take its title, units and domain — only when its study.json has the SHA-256
+ * the findings recorded, so a different study is never mistaken for the one analysed.
+ */
+function studyFromAudit(F: Findings): Record<string, unknown> | null {
+  const want = (F.inputs ?? []).find((f) => f.path === 'study.json')?.sha256;
+  if (!want) return null;
+  const args = [...(F.audit?.command ?? []), ...(typeof F.audit?.rerun === 'string' ? F.audit.rerun.split(/\s+/).map((a) => a.replace(/^'(.*)'$/, '$1')) : [])];
+  for (const arg of args) {
+    if (typeof arg !== 'string' || arg.startsWith('-')) continue;
+    const p = join(resolve(arg), 'study.json');
+    try {
+      if (!existsSync(p)) continue;
+      const buf = readFileSync(p);
+      if (sha256File(buf) !== want) continue;
+      const m = JSON.parse(buf.toString('utf8')) as Record<string, unknown>;
+      return { title: typeof m.title === 'string' ? m.title : undefined, units: m.units, domain: m.domain };
+    } catch { continue; }
+  }
+  return null;
 }
 
 /** Render the model's figures to SVG (and the frames of heat maps for the PDF). */
