@@ -4,7 +4,13 @@
  */
 import type { Analysis } from './analysis.js';
 import { operatorAnalysis } from './operator.js';
+import { singularities } from './singularities.js';
+import { interfacesAnalysis } from './interfaces.js';
+import { regions } from './regions.js';
 
 export const analyses: Analysis<unknown>[] = [
   operatorAnalysis as Analysis<unknown>, // after order and self_adjoint, before regions
+  singularities as Analysis<unknown>,
+  interfacesAnalysis as Analysis<unknown>,
+  regions as Analysis<unknown>, // after interfaces, operator, order, locality
 ];

@@ -1,0 +1,81 @@
+/**
+ * Interfaces (split physics) on closed-form kernels passed through a modal stand-in for a fit
+ * (anaB_helpers.ts). Kernels: entry (e) piecewise a (derived in shared/references from (i);
+ * Stakgold & Holst construction, from memory), the same construction with three pieces, and
+ * the smooth a = 1 + x² of entry (e) (A = arctan x). Targets from the issue: locations within
+ * 0.02 of the domain length; no interface for a smoothly varying coefficient.
+ */
+import { describe, it, expect } from 'vitest';
+import { detectInterfaces, localRecurrence } from '../../src/analyses/interfaces.js';
+import { laplace, piecewise, helmholtz, screened, advdiff, kernel1d, type G1 } from '../helpers/closedForms.js';
+import { modalKernel } from './anaB_helpers.js';
+
+/** −(a u')' = f with piecewise-constant a (pieces a[i] between cuts), Dirichlet: G = A(x<)(A(1) − A(x>))/A(1), A = ∫ dt/a (entry (e)/(i)) */
+function piecewiseN(a: number[], cuts: number[]): G1 {
+  const A = (t: number) => {
+    let s = 0, prev = 0;
+    for (let i = 0; i < a.length; i++) {
+      const end = i < cuts.length ? cuts[i]! : 1;
+      if (t <= end) return s + (t - prev) / a[i]!;
+      s += (end - prev) / a[i]!; prev = end;
+    }
+    return s;
+  };
+  const A1 = A(1);
+  return (x, s) => A(Math.min(x, s)) * (A1 - A(Math.max(x, s))) / A1;
+}
+/** a = 1 + x²: A = arctan x (entry (e), check value G(0.5, 0.5) = 0.18994) */
+const smoothA: G1 = (x, s) => Math.atan(Math.min(x, s)) * (Math.atan(1) - Math.atan(Math.max(x, s))) / Math.atan(1);
+
+describe('local recurrence (Prony) on exact columns', () => {
+  it('recovers β and γ of u″ + βu′ + γu = 0 from closed-form kernels', () => {
+    // (d) −0.05u″ + u′: columns solve u″ − 20u′ = 0 → β = −20, γ = 0
+    const kd = kernel1d(advdiff(0.05, 1), 200);
+    const rd = localRecurrence(kd.G, kd.pointsOut.data, kd.pointsIn.data, 0.5, 0.05, 0.03, 3);
+    expect(rd.beta).toBeCloseTo(-20, 2);
+    expect(Math.abs(rd.gamma)).toBeLessThan(0.5);
+    // (b) k = 15: γ = 225; (c) κ = 10: γ = −100 (Duffy; Butkovskiy, from memory)
+    const kb = kernel1d(helmholtz(15), 200);
+    const rb = localRecurrence(kb.G, kb.pointsOut.data, kb.pointsIn.data, 0.5, 0.05, 0.03, 3);
+    expect(rb.gamma).toBeCloseTo(225, 0);
+    expect(Math.abs(rb.beta)).toBeLessThan(1e-6);
+    const kc = kernel1d(screened(10), 200);
+    const rc = localRecurrence(kc.G, kc.pointsOut.data, kc.pointsIn.data, 0.5, 0.05, 0.03, 3);
+    expect(rc.gamma).toBeCloseTo(-100, 0);
+  });
+});
+
+describe('interfaces from local evidence and a step/trend/constant model comparison', () => {
+  it('one interface: a = 1 | 10 at 0.4 (noise-free fit) and a = 5 | 0.5 at 0.6 (1 % fit noise)', () => {
+    const m1 = modalKernel(piecewise(1, 10, 0.4), { rel: 0, reps: 8, seed: 5 });
+    const r1 = detectInterfaces(m1.kernel, m1.replicates);
+    expect(r1.interfaces.length).toBe(1);
+    expect(Math.abs(r1.interfaces[0]!.location - 0.4)).toBeLessThan(0.02);
+    const m2 = modalKernel(piecewise(5, 0.5, 0.6), { rel: 0.01, reps: 8, seed: 5 });
+    const r2 = detectInterfaces(m2.kernel, m2.replicates);
+    expect(r2.interfaces.length).toBe(1);
+    expect(Math.abs(r2.interfaces[0]!.location - 0.6)).toBeLessThan(0.02);
+    expect(r2.interfaces[0]!.confidence).toBeGreaterThan(0.8);
+  });
+
+  it('two interfaces: a = 1 | 4 | 1 with cuts 0.3 and 0.7 (noise-free fit)', () => {
+    const m = modalKernel(piecewiseN([1, 4, 1], [0.3, 0.7]), { rel: 0, reps: 8, seed: 5 });
+    const r = detectInterfaces(m.kernel, m.replicates);
+    expect(r.interfaces.length).toBe(2);
+    expect(Math.abs(r.interfaces[0]!.location - 0.3)).toBeLessThan(0.02);
+    expect(Math.abs(r.interfaces[1]!.location - 0.7)).toBeLessThan(0.02);
+  });
+
+  it('no interface for a smoothly varying coefficient or a uniform medium (fit noise 0.01 and 0.1)', () => {
+    for (const g of [smoothA, laplace(), helmholtz(15), screened(10), advdiff(0.05, 1)]) {
+      for (const rel of [0.01, 0.1]) {
+        const m = modalKernel(g, { rel, reps: 8, seed: 7 });
+        const r = detectInterfaces(m.kernel, m.replicates);
+        expect(r.interfaces.filter((i) => i.confidence >= 0.5)).toEqual([]);
+      }
+    }
+    // noise-free smooth a(x): the trend model wins outright
+    const m0 = modalKernel(smoothA, { rel: 0, reps: 4, seed: 7 });
+    expect(detectInterfaces(m0.kernel, m0.replicates).chosen.model).toBe('trend');
+  });
+});
