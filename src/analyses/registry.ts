@@ -3,12 +3,27 @@
  * named in its `dependsOn`). Adding a question = one file + one line here.
  */
 import type { Analysis } from './analysis.js';
+import { selfAdjoint } from './selfAdjoint.js';
+import { transport } from './transport.js';
+import { translation } from './translation.js';
+import { order } from './order.js';
+import { locality } from './locality.js';
+import { oscillation, screening } from './oscillation.js';
+import { coupling } from './coupling.js';
 import { operatorAnalysis } from './operator.js';
 import { singularities } from './singularities.js';
 import { interfacesAnalysis } from './interfaces.js';
 import { regions } from './regions.js';
 
 export const analyses: Analysis<unknown>[] = [
+  selfAdjoint as Analysis<unknown>,
+  transport as Analysis<unknown>, // after self_adjoint
+  order as Analysis<unknown>,
+  translation as Analysis<unknown>,
+  locality as Analysis<unknown>, // after order (shares its spectrum)
+  oscillation as Analysis<unknown>, // after order and transport
+  screening as Analysis<unknown>,
+  coupling as Analysis<unknown>,
   operatorAnalysis as Analysis<unknown>, // after order and self_adjoint, before regions
   singularities as Analysis<unknown>,
   interfacesAnalysis as Analysis<unknown>,
