@@ -39,7 +39,7 @@ export interface DiagnoseOutcome {
 
 function audit(opts: PipelineOptions, started: Date, seconds: number, rerun: string, options: Record<string, unknown>): Audit {
   return {
-    command: opts.argv ?? [],
+    command: opts.argv && opts.argv.length ? opts.argv : rerun.split(' ').slice(1),
     options,
     seed: opts.seed ?? 0,
     started: started.toISOString(),
@@ -110,8 +110,11 @@ export async function diagnoseDir(inputDir: string, outDir: string, opts: Pipeli
       writeFit(stage, r.fit, 'kernel');
       outcome = { findings: r.findings, fit: r.fit, study };
     }
-    const findings = outcome.findings as Findings & { kernel_dir?: string };
+    const findings = outcome.findings as Findings & { kernel_dir?: string; study?: Record<string, unknown> };
     findings.kernel_dir = 'kernel';
+    if (outcome.study) {
+      findings.study = { title: outcome.study.title ?? null, units: outcome.study.units ?? null, domain: outcome.study.domain };
+    }
     findings.audit = audit(opts, started, (performance.now() - t0) / 1000, rerunCmd, options);
     stage.write('findings.json', JSON.stringify(findings, null, 2) + '\n');
     if (!withReport) return outcome;
