@@ -212,6 +212,8 @@ export type Decision = 'present' | 'absent' | 'inconclusive';
  *  - absent when stat ≤ 1.5·floor and the floor itself is below `resolution`, the smallest
  *    effect worth reporting (confidence Φ(2.5 − z), reduced as the floor approaches the
  *    resolution: a small floor is what makes "absent" informative);
+ *  - absent also when not separated but stat + 3·floor < resolution (an equivalence test:
+ *    whatever effect there is, it is confidently below the resolution; confidence ≤ 0.9);
  *  - inconclusive otherwise (confidence 0.5: the data do not decide).
  * The factors 3 and 1.5 are the common "3 sigma to claim, within noise to deny" practice.
  */
@@ -222,6 +224,11 @@ export function decide(stat: number, floor: number, resolution: number): { decis
   if (z >= 3) return { decision: 'present', confidence: clamp01(round3(normalCdf(z - 2))), z };
   if (z <= 1.5 && f < resolution) {
     const c = normalCdf(2.5 - z) * (1 - 0.5 * f / resolution);
+    return { decision: 'absent', confidence: clamp01(round3(c)), z };
+  }
+  // equivalence: not separated from noise, but confidently smaller than the resolution
+  if (f > 0 && stat + 3 * f < resolution) {
+    const c = Math.min(0.9, normalCdf((resolution - stat) / f - 2)) * (1 - 0.5 * f / resolution);
     return { decision: 'absent', confidence: clamp01(round3(c)), z };
   }
   return { decision: 'inconclusive', confidence: 0.5, z };
