@@ -20,7 +20,7 @@ import type { Analysis, AnalysisOutput, Context } from './analysis.js';
 import { normalCdf, clamp01 } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { zeros } from '../linalg/dense.js';
+import { zeros, matmul } from '../linalg/dense.js';
 import { replicates, deviations, weightsOut, sqrtWeighted, topSvd, analysisRng, spectralNorm, decide, sig, round3, median, std, colocated, type TopSvd } from './util/a_common.js';
 import { diagonalSlopeJump } from './translation.js';
 
@@ -57,11 +57,7 @@ export function kernelSpectrum(kernel: Kernel, reps: Mat[], identifiedRank?: num
   const err = new Float64Array(K);
   for (const E of devs) {
     // δσ_k = u_kᵀ E v_k
-    const EV = zeros(E.rows, K);
-    for (let i = 0; i < E.rows; i++) {
-      const o = i * E.cols;
-      for (let j = 0; j < E.cols; j++) { const e = E.data[o + j]!; if (e === 0) continue; const vo = j * K; for (let k = 0; k < K; k++) EV.data[i * K + k] += e * sv.V.data[vo + k]!; }
-    }
+    const EV = matmul(E, sv.V);
     const p = new Float64Array(K);
     for (let k = 0; k < K; k++) { let t = 0; for (let i = 0; i < E.rows; i++) t += sv.U.data[i * K + k]! * EV.data[i * K + k]!; p[k] = sv.s[k]! + t; err[k] += t * t; }
     perturbed.push(p);

@@ -123,7 +123,7 @@ function fitWave(G: Mat, x: Float64Array, segs: Segment[], kmax: number, start: 
   const E = energy(G, segs);
   let best: { p: number; ks: number; f: number };
   const dk = (2 * kmax) / 160, dpp = kmax / 20;
-  if (start.ks !== undefined) best = refine(G, x, segs, start.p, start.ks, dpp / 8, dk / 4, 150);
+  if (start.ks !== undefined) best = refine(G, x, segs, start.p, start.ks, dpp / 8, dk / 4, 60);
   else {
     // grid in the signed wavenumber at the starting drift, then a joint local search from the best three
     const top: { p: number; ks: number; f: number }[] = [];
@@ -156,7 +156,7 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   const x = kernel.pointsOut.data;
   const kmax = Math.min(Math.PI * (n - 1) / (4 * L), 250 / L);
   const f = fitWave(kernel.G, x, segs, kmax, { p: -(opts.driftRate ?? 0) });
-  const rf = reps.slice(0, opts.maxReplicates ?? 20).map((R) => fitWave(R, x, segs, kmax, { p: f.p, ks: f.ks }));
+  const rf = reps.slice(0, opts.maxReplicates ?? 12).map((R) => fitWave(R, x, segs, kmax, { p: f.p, ks: f.ks }));
   const thetaSd = rf.length >= 3 ? std(rf.map((r) => r.theta)) : null;
   const kappa2Sd = rf.length >= 3 ? std(rf.map((r) => r.kappa2)) : null;
   const E = energy(kernel.G, segs);
