@@ -6,6 +6,7 @@ import { registerReport } from './report.js';
 import { registerDemo } from './demo.js';
 import { registerSimulate } from './simulate.js';
 import { registerDesign } from './design.js';
+import { registerFit } from './fit.js';
 
 export type Register = (program: Command, io: Io, setExit: (code: number) => void) => void;
 
@@ -16,4 +17,5 @@ export const commands: Register[] = [
   registerDemo,
   registerSimulate,
   registerDesign,
+  registerFit,
 ];

@@ -84,30 +84,24 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
   if (core.complete && unidentified > 0) covNote.push(`${(100 * unidentified).toPrecision(2)}% of the fitted kernel's energy lies in input directions not excited above the noise (filled in by the model)`);
   if (cov.unexcited_inputs > 0) covNote.push(`${cov.unexcited_inputs} input point(s) are never forced: their kernel columns are extrapolated, not measured`);
   if (complete) covNote.push(`the forcings excite ${cov.identified_rank} input directions above the noise, at least the ${core.inputDof} the model needs`);
-  // linearity verdict
+  // linearity verdict (scaling test, core.ts)
   let linearity: FitReport['linearity'];
   const sc = core.scaling;
-  if (!sc || sc.nulls.length < 5) {
-    linearity = { verdict: 'not-tested', statistic: null, threshold: null, note: 'the scaling test needs at least 10 experiments, each sensor measured in both amplitude halves' };
+  if (!sc) {
+    linearity = { verdict: 'not-tested', statistic: null, threshold: null, note: 'the scaling test needs at least 16 experiments' };
   } else {
-    const m = sc.nulls.reduce((a, b) => a + b, 0) / sc.nulls.length;
-    const sd = Math.sqrt(sc.nulls.reduce((a, b) => a + (b - m) ** 2, 0) / (sc.nulls.length - 1));
-    // the null spread plus the fit's own error: a deterministic difference smaller than the kernel's
-    // uncertainty is not evidence of nonlinearity
-    const scale = Math.sqrt(sd * sd + sc.fitError * sc.fitError);
-    const z = scale > 0 ? (sc.statistic - m) / scale : (sc.statistic > m ? Infinity : 0);
-    const verdict = z > NONLINEAR_Z ? 'nonlinear' : z > INCONCLUSIVE_Z ? 'inconclusive' : 'linear';
+    const verdict = sc.t > NONLINEAR_Z ? 'nonlinear' : sc.t > INCONCLUSIVE_Z ? 'inconclusive' : 'linear';
     const ratio = sc.highAmplitude / Math.max(sc.lowAmplitude, 1e-300);
     linearity = {
       verdict,
-      statistic: z,
+      statistic: sc.t,
       threshold: NONLINEAR_Z,
-      note: `kernels fitted to the low- and high-amplitude halves of the experiments (amplitudes ${sc.lowAmplitude.toPrecision(3)}–${sc.highAmplitude.toPrecision(3)}, ratio ${ratio.toPrecision(3)}) differ by ${sc.statistic.toPrecision(3)} (relative, in response space), against ${m.toPrecision(3)} ± ${scale.toPrecision(2)} for a linear system with the same noise and the fit's own error: z = ${Number.isFinite(z) ? z.toFixed(2) : 'inf'}` +
+      note: `held-out relative residual energy against the size of the predicted response, over the ${sc.experiments} experiments with the larger responses (response RMS ${sc.lowAmplitude.toPrecision(3)}–${sc.highAmplitude.toPrecision(3)}): Spearman ρ = ${sc.rho.toFixed(3)}, z = ${sc.t.toFixed(2)}; a linear system gives ρ ≤ 0 up to chance (nonlinear above z = ${NONLINEAR_Z})` +
         (verdict === 'nonlinear' ? '. The kernel is a local linearisation around the forcing amplitudes used, not a Green\'s function.' : '') +
-        (ratio < 1.5 ? ' The forcing amplitudes vary little, so the scaling test has little power.' : ''),
+        (ratio < 1.5 ? '. The response sizes vary little, so the scaling test has little power.' : ''),
     };
   }
-  const relResidual = Math.sqrt(core.gcvMse * core.nObs / Math.max(core.yy, 1e-300));
+  const relResidual = core.cvRelative ?? Math.sqrt(core.gcvMse * core.nObs / Math.max(core.yy, 1e-300));
   const report: FitReport = {
     format: 'kerneldx-fit/1',
     method: core.method,

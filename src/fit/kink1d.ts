@@ -14,7 +14,7 @@
  * sensor/actuator points and several components cost nothing extra.
  */
 import type { Mat } from '../linalg/dense.js';
-import { zeros } from '../linalg/dense.js';
+import { zeros, matmulTN } from '../linalg/dense.js';
 import type { Prepared } from './prepare.js';
 import { legendreBasis } from './basis.js';
 import { type NormalSystem, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
@@ -35,6 +35,9 @@ export interface KinkSetup {
   /** per (component, sensor): mean feature row over measured experiments (F) and mean response */
   xbar: Float64Array; // (cOut·nOut) × F
   ubar: Float64Array; // cOut·nOut
+  /** cross-validation folds over experiments (fold index per experiment) and per-(row, fold) sums of the
+   *  globally centred features y = x − x̄ and responses v = u − ū over the fold's measured experiments */
+  folds: { count: number; of: Int32Array; Syy: Float64Array; Sy: Float64Array; Syv: Float64Array; Sv: Float64Array; Svv: Float64Array; n: Int32Array } | null;
 }
 
 /**
@@ -93,7 +96,7 @@ export function sweepFeatures(prep: Prepared, Psi: Mat, K: number, cb: (i: numbe
 }
 
 /** Centre each sensor's data over its measured experiments and store the per-sensor Gram matrices at Kmax. */
-export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][]): KinkSetup {
+export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][], foldOf: Int32Array | null = null, nFolds = 0): KinkSetup {
   const { nOut, cOut, cIn } = prep;
   const [lo, hi] = prep.box[0]!;
   const Phi = legendreBasis(prep.pointsOut.data, Kmax, lo, hi);
@@ -102,8 +105,12 @@ export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][]
   const nc = cOut * nOut;
   const rowQ = new Float64Array(nc * F * F), rowR = new Float64Array(nc * F), rowYY = new Float64Array(nc), rowN = new Int32Array(nc);
   const xbar = new Float64Array(nc * F), ubar = new Float64Array(nc);
-  const xt = new Float64Array(F);
   const colsOut = nOut * cOut;
+  const folds = foldOf ? {
+    count: nFolds, of: foldOf,
+    Syy: new Float64Array(nc * nFolds * F * F), Sy: new Float64Array(nc * nFolds * F), Syv: new Float64Array(nc * nFolds * F),
+    Sv: new Float64Array(nc * nFolds), Svv: new Float64Array(nc * nFolds), n: new Int32Array(nc * nFolds),
+  } : null;
   sweepFeatures(prep, Psi, Kmax, (i, X) => {
     for (let p = 0; p < cOut; p++) {
       const c = p * nOut + i;
@@ -115,33 +122,44 @@ export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][]
       ub /= nJ;
       for (let f = 0; f < F; f++) xb[f] /= nJ;
       ubar[c] = ub;
-      const Q = rowQ.subarray(c * F * F, (c + 1) * F * F), r = rowR.subarray(c * F, (c + 1) * F);
+      const r = rowR.subarray(c * F, (c + 1) * F);
+      const Xc = zeros(nJ, F);
       let yy = 0;
-      for (const j of J) {
+      J.forEach((j, n) => {
         const u = prep.U.data[j * colsOut + c]! - ub;
         yy += u * u;
-        for (let f = 0; f < F; f++) xt[f] = X[j * F + f]! - xb[f]!;
-        for (let f = 0; f < F; f++) {
-          const v = xt[f]!;
-          if (v === 0) continue;
-          r[f] += v * u;
-          const o = f * F;
-          for (let g = f; g < F; g++) Q[o + g] += v * xt[g]!;
+        const xo = j * F, co = n * F;
+        for (let f = 0; f < F; f++) { const v = X[xo + f]! - xb[f]!; Xc.data[co + f] = v; r[f] += v * u; }
+      });
+      rowQ.set(matmulTN(Xc, Xc).data, c * F * F);
+      if (folds) {
+        for (let fo = 0; fo < nFolds; fo++) {
+          const idx: number[] = [];
+          J.forEach((j, n) => { if (folds.of[j] === fo) idx.push(n); });
+          const b = c * nFolds + fo;
+          folds.n[b] = idx.length;
+          if (!idx.length) continue;
+          const Yf = zeros(idx.length, F);
+          idx.forEach((n, m) => {
+            const v = prep.U.data[J[n]! * colsOut + c]! - ub;
+            folds.Sv[b] += v; folds.Svv[b] += v * v;
+            for (let f = 0; f < F; f++) { const y = Xc.data[n * F + f]!; Yf.data[m * F + f] = y; folds.Sy[b * F + f] += y; folds.Syv[b * F + f] += y * v; }
+          });
+          folds.Syy.set(matmulTN(Yf, Yf).data, b * F * F);
         }
       }
-      for (let f = 0; f < F; f++) for (let g = 0; g < f; g++) Q[f * F + g] = Q[g * F + f]!;
       rowYY[c] = yy;
       rowN[c] = nJ;
     }
   });
-  return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar };
+  return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar, folds };
 }
 
 /**
  * The full tensor model's normal system for output component p at basis size K (layout of
  * `kinkIndex(K, …)`), assembled from the per-sensor Grams: M = Σ_i (φ_i φ_iᵀ) ⊗ Q_i.
  */
-export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: number): NormalSystem {
+export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: number, leaveOut = -1): NormalSystem {
   const { nOut, cIn } = prep;
   const { Kmax, F } = setup;
   const Fk = 2 * K * cIn;
@@ -150,31 +168,59 @@ export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: num
   const P = K * Fk;
   const M = zeros(P, P), r = new Float64Array(P);
   let yy = 0, nObs = 0;
-  const Qs = new Float64Array(Fk * Fk);
+  // M[(a,f),(a2,g)] = Σ_i φ_ia φ_ia2 Q_i[f,g]: one product (n × K²)ᵀ (n × Fk²)
+  const Aphi = zeros(nOut, K * K), Bq = zeros(nOut, Fk * Fk);
   for (let i = 0; i < nOut; i++) {
     const c = p * nOut + i;
-    const Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F), rr = setup.rowR.subarray(c * F, (c + 1) * F);
-    for (let f = 0; f < Fk; f++) for (let g = 0; g < Fk; g++) Qs[f * Fk + g] = Q[sel[f]! * F + sel[g]!]!;
-    yy += setup.rowYY[c]!;
-    nObs += setup.rowN[c]! - 1;
+    let Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F), rr = setup.rowR.subarray(c * F, (c + 1) * F);
+    let yyc = setup.rowYY[c]!, nc = setup.rowN[c]!;
+    if (leaveOut >= 0 && setup.folds) {
+      const t = trainingStats(setup, c, leaveOut);
+      Q = t.Q; rr = t.r; yyc = t.yy; nc = t.n;
+    }
+    const bo = i * Fk * Fk;
+    for (let f = 0; f < Fk; f++) { const so = sel[f]! * F; for (let g = 0; g < Fk; g++) Bq.data[bo + f * Fk + g] = Q[so + sel[g]!]!; }
+    yy += yyc;
+    nObs += Math.max(0, nc - 1);
     const phi = setup.Phi.data.subarray(i * Kmax, i * Kmax + K);
     for (let a = 0; a < K; a++) {
       const pa = phi[a]!;
       for (let f = 0; f < Fk; f++) r[a * Fk + f] += pa * rr[sel[f]!]!;
-      for (let a2 = a; a2 < K; a2++) {
-        const w = pa * phi[a2]!;
-        if (w === 0) continue;
-        for (let f = 0; f < Fk; f++) {
-          const row = (a * Fk + f) * P + a2 * Fk, qo = f * Fk;
-          for (let g = 0; g < Fk; g++) M.data[row + g] += w * Qs[qo + g]!;
-        }
-      }
+      for (let a2 = 0; a2 < K; a2++) Aphi.data[i * K * K + a * K + a2] = pa * phi[a2]!;
     }
   }
-  for (let a = 0; a < K; a++) for (let a2 = a + 1; a2 < K; a2++) {
-    for (let f = 0; f < Fk; f++) for (let g = 0; g < Fk; g++) M.data[(a2 * Fk + g) * P + a * Fk + f] = M.data[(a * Fk + f) * P + a2 * Fk + g]!;
+  const Mr = matmulTN(Aphi, Bq);
+  for (let a = 0; a < K; a++) for (let a2 = 0; a2 < K; a2++) {
+    const src = (a * K + a2) * Fk * Fk;
+    for (let f = 0; f < Fk; f++) {
+      const row = (a * Fk + f) * P + a2 * Fk, so = src + f * Fk;
+      for (let g = 0; g < Fk; g++) M.data[row + g] = Mr.data[so + g]!;
+    }
   }
   return { M, r, yy, nObs };
+}
+
+/**
+ * Centred Gram of row c over its measured experiments outside fold `fo`:
+ * with y = x − x̄ (global mean), Σ_T (y − ȳ_T)(y − ȳ_T)ᵀ = Q − S_f,yy − S_f S_fᵀ / n_T, since Σ_T y = −S_f.
+ */
+export function trainingStats(setup: KinkSetup, c: number, fo: number): { Q: Float64Array; r: Float64Array; yy: number; n: number; ybar: Float64Array; vbar: number } {
+  const F = setup.F, fd = setup.folds!;
+  const b = c * fd.count + fo;
+  const nT = setup.rowN[c]! - fd.n[b]!;
+  const Q = new Float64Array(setup.rowQ.subarray(c * F * F, (c + 1) * F * F));
+  const r = new Float64Array(setup.rowR.subarray(c * F, (c + 1) * F));
+  const Sy = fd.Sy.subarray(b * F, (b + 1) * F), Sv = fd.Sv[b]!;
+  const ybar = new Float64Array(F);
+  if (nT <= 0) return { Q: new Float64Array(F * F), r: new Float64Array(F), yy: 0, n: 0, ybar, vbar: 0 };
+  for (let f = 0; f < F; f++) {
+    ybar[f] = -Sy[f]! / nT;
+    r[f] -= fd.Syv[b * F + f]! + (Sy[f]! * Sv) / nT;
+    const o = f * F, so = b * F * F + o;
+    for (let g = 0; g < F; g++) Q[o + g] -= fd.Syy[so + g]! + (Sy[f]! * Sy[g]!) / nT;
+  }
+  const yy = setup.rowYY[c]! - fd.Svv[b]! - (Sv * Sv) / nT;
+  return { Q, r, yy, n: nT, ybar, vbar: -Sv / nT };
 }
 
 /** Embed θ of the layout at K into the layout at Kmax. */
@@ -262,7 +308,7 @@ export interface KinkChoice {
 
 /** Candidate basis sizes (nested Legendre bases), in increasing order. */
 export function kinkCandidates(Kmax: number): number[] {
-  const base = [3, 4, 6, 8, 10, 12, 14, 16, 18, 20, 22, 24, 28, 32];
+  const base = [3, 4, 6, 8, 10, 13, 16, 20, 24, 28, 32];
   const c = base.filter((k) => k <= Kmax);
   if (!c.includes(Kmax)) c.push(Kmax);
   return c;

@@ -13,10 +13,10 @@ import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
   type Constraint, type KinkFit, type KinkSetup, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
-  rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
+  rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights, trainingStats,
 } from './kink1d.js';
 import { RidgeSolver, type NormalSystem } from './spectral.js';
-import type { CoreFit, ScalingTest } from './core.js';
+import { type CoreFit, scalingTest, responseSize } from './core.js';
 
 const PENALTY_ORDER = 2;
 
@@ -51,7 +51,13 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     constraint = 'none';
   }
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);
-  const setup = setupKink(prep, Kf, sets);
+  // cross-validation folds over experiments (seeded): held-out residuals for the scaling test and the
+  // cross-validated residual in fit.json
+  const nFolds = Math.min(5, prep.N);
+  const perm = o.rng.permutation(prep.N);
+  const foldOf = new Int32Array(prep.N);
+  perm.forEach((j, r) => { foldOf[j] = r % nFolds; });
+  const setup = setupKink(prep, Kf, sets, foldOf, nFolds);
   const fits: KinkFit[] = [];
   const systems: NormalSystem[] = [];
   for (let p = 0; p < prep.cOut; p++) {
@@ -69,50 +75,24 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const sigma2 = fits.map((f, p) => f.gcv.rss / Math.max(1, systems[p]!.nObs - f.gcv.dof));
   const sigmaRep = sigma2.map((s2) => o.sigmaKnown ?? Math.sqrt(s2));
 
-  // ---- amplitude-split halves for the scaling test (fits with the same K, λ scaled by data size)
-  let halves: { setup: KinkSetup; solvers: RidgeSolver[]; theta: Float64Array[]; base: Float64Array[] }[] | null = null;
-  const order = Array.from({ length: prep.N }, (_, j) => j).sort((a, b) => prep.amplitude[a]! - prep.amplitude[b]!);
-  const half = Math.floor(prep.N / 2);
-  const inHalf = [new Uint8Array(prep.N), new Uint8Array(prep.N)];
-  order.forEach((j, r) => { inHalf[r < half ? 0 : 1]![j] = 1; });
-  const halfSets = inHalf.map((mask) => sets.map((J) => J.filter((j) => mask[j])));
-  const canScale = o.scaling && prep.N >= 10 && halfSets.every((hs) => hs.every((J) => J.length >= 2));
-  if (canScale) {
-    o.progress('scaling test: refitting on the low- and high-amplitude halves of the experiments');
-    halves = halfSets.map((hs) => {
-      const sh = setupKink(prep, Kf, hs);
-      const solvers: RidgeSolver[] = [], theta: Float64Array[] = [], base: Float64Array[] = [];
-      for (let p = 0; p < prep.cOut; p++) {
-        const f = fits[p]!;
-        const sysH = assembleFull(sh, prep, p, Kf);
-        const red = reduceSystem(sysH, penaltyWeights(Kf, prep.cIn, f.order), f.map);
-        const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sysH.nObs) / Math.max(1, systems[p]!.nObs));
-        solvers.push(solver);
-        theta.push(expand(f.map, solver.solveVec(red.sys.r), sysH.r.length));
-        // Σ_i φ_i ⊗ Q_{i,h} θ̂_i: the half's right-hand side for noise-free data from Ĝ
-        const b = new Float64Array(sysH.r.length);
-        const th = new Float64Array(sh.F);
-        for (let i = 0; i < prep.nOut; i++) {
-          const c = p * prep.nOut + i;
-          rowCoefficients(setup, thetas[p]!, i, th);
-          const Q = sh.rowQ.subarray(c * sh.F * sh.F, (c + 1) * sh.F * sh.F);
-          const qt = new Float64Array(sh.F);
-          for (let f2 = 0; f2 < sh.F; f2++) { let s = 0; for (let g = 0; g < sh.F; g++) s += Q[f2 * sh.F + g]! * th[g]!; qt[f2] = s; }
-          for (let a = 0; a < Kf; a++) { const pa = sh.Phi.data[i * Kf + a]!; for (let f2 = 0; f2 < sh.F; f2++) b[a * sh.F + f2] += pa * qt[f2]!; }
-        }
-        base.push(b);
-      }
-      return { setup: sh, solvers, theta, base };
-    });
-  }
-
   // ---- parametric bootstrap: noise draws, right-hand sides in one sweep
   const R = o.replicates;
   o.progress(`parametric bootstrap: ${R} replicates with fixed hyper-parameters`);
   const colsOut = prep.nOut * prep.cOut;
   const P0 = Kf * setup.F;
   const rhs = Array.from({ length: R }, () => Array.from({ length: prep.cOut }, () => new Float64Array(P0)));
-  const rhsH = halves ? [0, 1].map(() => Array.from({ length: R }, () => Array.from({ length: prep.cOut }, () => new Float64Array(P0)))) : null;
+  // fold refits with the chosen model (λ scaled with the amount of data)
+  o.progress(`${nFolds}-fold cross-validation over experiments`);
+  const foldTheta = fits.map((f, p) => Array.from({ length: nFolds }, (_, fo) => {
+    const sysT = assembleFull(setup, prep, p, Kf, fo);
+    const red = reduceSystem(sysT, penaltyWeights(Kf, prep.cIn, f.order), f.map);
+    const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sysT.nObs) / Math.max(1, systems[p]!.nObs));
+    return expand(f.map, solver.solveVec(red.sys.r), sysT.r.length);
+  }));
+  let cvNum = 0, cvDen = 0;
+  // per-experiment held-out residual energy (for the scaling test)
+  const resE = new Float64Array(prep.N), resN = new Float64Array(prep.N), predE = new Float64Array(prep.N);
+  const thRow = new Float64Array(setup.F);
   const meanEps = Array.from({ length: R }, () => new Float64Array(colsOut));
   const eps = Array.from({ length: R }, () => {
     const e = new Float64Array(prep.N * colsOut);
@@ -143,12 +123,26 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       };
       for (let r = 0; r < R; r++) {
         meanEps[r]![c] = accumulate(sets[c]!, eps[r]!, rhs[r]![p]!);
-        if (rhsH) for (let h = 0; h < 2; h++) accumulate(halfSets[h]![c]!, eps[r]!, rhsH[h]![r]![p]!);
+      }
+      const xb = setup.xbar.subarray(c * F, (c + 1) * F);
+      for (let fo = 0; fo < nFolds; fo++) {
+        const tsx = trainingStats(setup, c, fo);
+        if (tsx.n < 1) continue;
+        rowCoefficients(setup, foldTheta[p]![fo]!, i, thRow);
+        for (const j of sets[c]!) {
+          if (foldOf[j] !== fo) continue;
+          let pred = 0;
+          const xo = j * F;
+          for (let f = 0; f < F; f++) pred += (X[xo + f]! - xb[f]! - tsx.ybar[f]!) * thRow[f]!;
+          const v = prep.U.data[j * colsOut + c]! - setup.ubar[c]!;
+          const res = v - tsx.vbar - pred;
+          resE[j] += res * res; resN[j]++; predE[j] += pred * pred;
+          cvNum += res * res; cvDen += (v - tsx.vbar) ** 2;
+        }
       }
     }
   });
   const repG: Mat[] = [], repUh: Float64Array[] = [];
-  const repTheta: Float64Array[][] = [];
   const th = new Float64Array(F);
   // noise-free refit of Ĝ's own data: (M + λP)⁻¹ M η̂ — the shrinkage the fit applies (bootstrap bias)
   const shrunk = fits.map((f) => {
@@ -164,7 +158,6 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       for (let u = 0; u < e.length; u++) e[u] += shrunk[p]![u]!;
       return expand(f.map, e, P0);
     });
-    repTheta.push(tr);
     const Gr = zeros(G.rows, G.cols);
     for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr);
     repG.push(Gr);
@@ -179,41 +172,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     repUh.push(u);
   }
 
-  // ---- scaling statistic: response-space distance between the two halves' kernels
-  let scaling: ScalingTest | null = null;
-  if (halves && rhsH) {
-    const dist = (tLo: Float64Array[], tHi: Float64Array[]): number => {
-      let num = 0, den = 0;
-      const a = new Float64Array(F), b = new Float64Array(F), t0 = new Float64Array(F);
-      for (let p = 0; p < prep.cOut; p++) for (let i = 0; i < prep.nOut; i++) {
-        const c = p * prep.nOut + i;
-        rowCoefficients(setup, tLo[p]!, i, a); rowCoefficients(setup, tHi[p]!, i, b); rowCoefficients(setup, thetas[p]!, i, t0);
-        const Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F);
-        for (let f = 0; f < F; f++) {
-          const df = b[f]! - a[f]!;
-          let sd = 0, s0 = 0;
-          for (let g2 = 0; g2 < F; g2++) { sd += Q[f * F + g2]! * (b[g2]! - a[g2]!); s0 += Q[f * F + g2]! * t0[g2]!; }
-          num += df * sd; den += t0[f]! * s0;
-        }
-      }
-      return Math.sqrt(Math.max(0, num) / Math.max(den, 1e-300));
-    };
-    const stat = dist(halves[0]!.theta, halves[1]!.theta);
-    const nulls: number[] = [];
-    for (let r = 0; r < R; r++) {
-      const tt = [0, 1].map((h) => fits.map((f, p) => {
-        const hv = halves![h]!;
-        const v = new Float64Array(P0);
-        for (let u = 0; u < P0; u++) v[u] = hv.base[p]![u]! + rhsH[h]![r]![p]![u]!;
-        return expand(f.map, hv.solvers[p]!.solveVec(reduceVec(f.map, v)), P0);
-      }));
-      nulls.push(dist(tt[0]!, tt[1]!));
-    }
-    // the fit's own response-space error from the replicates
-    let fe = 0;
-    for (let r = 0; r < R; r++) { const d = dist(thetas, repTheta[r]!); fe += d * d; }
-    scaling = { statistic: stat, nulls, fitError: Math.sqrt(fe / Math.max(1, R)), lowAmplitude: prep.amplitude[order[0]!]!, highAmplitude: prep.amplitude[order[prep.N - 1]!]! };
-  }
+  const scaling = o.scaling ? scalingTest(responseSize(predE, resN), resE, resN) : null;
 
   const f0 = fits[0]!;
   const hyper: Record<string, number | string | boolean> = {
@@ -231,7 +190,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     method: constraint === 'symmetric'
       ? 'diagonal-kink Legendre model, self-adjoint (C symmetric, D antisymmetric), ridge with GCV'
       : 'diagonal-kink Legendre model G = A + sign(x−s)·B, ridge with GCV',
-    hyper, G, uh, rss, dof, nObs, yy, gcvMse: gcvNum / nObs,
+    hyper, G, uh, rss, dof, nObs, yy, gcvMse: gcvNum / nObs, cvRelative: cvDen > 0 ? Math.sqrt(cvNum / cvDen) : null,
     sigma: Math.sqrt(sigma2.reduce((a, b, p) => a + b * systems[p]!.nObs, 0) / nObs),
     replicates: repG, homogeneousReplicates: repUh, scaling, notes, constraint,
     complete: true,

@@ -16,7 +16,7 @@ import type { Rng } from '../linalg/rng.js';
 import { covarianceMatrix, medianSpacing, type Covariance } from '../design/gp.js';
 import type { Prepared } from './prepare.js';
 import type { Constraint } from './kink1d.js';
-import type { CoreFit, ScalingTest } from './core.js';
+import { type CoreFit, scalingTest, responseSize } from './core.js';
 
 interface Prior { name: string; kind: 'white' | Covariance; lengthScale: number }
 
@@ -234,58 +234,21 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
       }
     }
   }
-  // scaling test on complete rows: kernels of the low- and high-amplitude halves
-  let scaling: ScalingTest | null = null;
-  if (o.scaling && N >= 10 && complete.length) {
-    o.progress('scaling test: refitting on the low- and high-amplitude halves');
-    const order = all.slice().sort((a, b) => prep.amplitude[a]! - prep.amplitude[b]!);
-    const half = Math.floor(N / 2);
-    const H = [order.slice(0, half).sort((a, b) => a - b), order.slice(half).sort((a, b) => a - b)];
-    const Gc = zeros(complete.length, nI);
-    complete.forEach((c, r) => Gc.data.set(G.data.subarray(c * nI, (c + 1) * nI), r * nI));
-    const den = frob2(matmulNT(Gc, FWc));
-    const halves = H.map((J) => {
-      const FJ = centred(prep, J);
-      const KWF = priorTimes(prep, prior, FJ, Kcache);
-      const A = matmul(FJ, KWF);
-      const UJ = zeros(complete.length, J.length);
-      complete.forEach((c, r) => {
-        const u = rowU(c, J), m = u.reduce((a, b) => a + b, 0) / J.length;
-        for (let a = 0; a < J.length; a++) UJ.data[r * J.length + a] = u[a]! - m;
-      });
-      let nObsH = 0; for (const _ of complete) nObsH += J.length - 1;
-      const s = gcvRows(A, KWF, UJ, nObsH, (sol.lambda * J.length) / N);
-      return { J, FJ, T: s.T, Gh: matmulNT(UJ, s.T), GWF: matmulNT(Gc, FJ) };
-    });
-    const dist = (a: Mat, b: Mat) => {
-      const diff = zeros(a.rows, a.cols);
-      for (let i = 0; i < a.data.length; i++) diff.data[i] = a.data[i]! - b.data[i]!;
-      return Math.sqrt(frob2(matmulNT(diff, FWc)) / Math.max(den, 1e-300));
-    };
-    const statistic = dist(halves[0]!.Gh, halves[1]!.Gh);
-    const nulls: number[] = [];
-    for (let rep = 0; rep < R; rep++) {
-      const Gs = halves.map((hv) => {
-        const nJ = hv.J.length;
-        const D = zeros(complete.length, nJ);
-        for (let r = 0; r < complete.length; r++) {
-          let m = 0; const e = new Float64Array(nJ);
-          for (let a = 0; a < nJ; a++) { e[a] = sigmaRep * o.rng.normal(); m += e[a]!; }
-          m /= nJ;
-          for (let a = 0; a < nJ; a++) D.data[r * nJ + a] = hv.GWF.data[r * nJ + a]! + e[a]! - m;
-        }
-        return matmulNT(D, hv.T);
-      });
-      nulls.push(dist(Gs[0]!, Gs[1]!));
+  // scaling test: residual energy per experiment against amplitude (complete rows)
+  let scaling = null;
+  if (o.scaling && complete.length) {
+    const resE = new Float64Array(N), resN = new Float64Array(N), predE = new Float64Array(N);
+    for (const c of complete) {
+      const J = sets[c]!;
+      const u = rowU(c, J), m = u.reduce((a, b) => a + b, 0) / J.length;
+      for (const j of J) {
+        let pred = 0;
+        for (let k = 0; k < nI; k++) pred += G.data[c * nI + k]! * FWc.data[j * nI + k]!;
+        const r = prep.U.data[j * colsOut + c]! - m - pred;
+        resE[j] += r * r; resN[j]++; predE[j] += pred * pred;
+      }
     }
-    let fe = 0;
-    for (let rep = 0; rep < R; rep++) {
-      const D = zeros(complete.length, nI);
-      complete.forEach((c, r) => { for (let k = 0; k < nI; k++) D.data[r * nI + k] = repG[rep]!.data[c * nI + k]!; });
-      const d = dist(D, Gc); fe += d * d;
-    }
-    const fitError = Math.sqrt(fe / Math.max(1, R));
-    scaling = { statistic, nulls, fitError, lowAmplitude: prep.amplitude[order[0]!]!, highAmplitude: prep.amplitude[order[N - 1]!]! };
+    scaling = scalingTest(responseSize(predE, resN), resE, resN);
   }
   return {
     method: 'span model: GP-prior ridge of each kernel row on the forcings\' span (kriging), prior and λ by GCV',

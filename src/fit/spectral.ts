@@ -56,21 +56,21 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Ar
     for (let i = k + 1; i < n; i++) vv += u[i]! * u[i]!;
     if (vv === 0) { d[k] = A[k * n + k]!; e[k] = x0; continue; }
     const beta = 2 / vv;
-    // p = β A22 u
+    // p = β A22 u from the lower triangle (rows are contiguous), then A22 −= u wᵀ + w uᵀ on the lower triangle
+    for (let i = k + 1; i < n; i++) w[i] = 0;
     for (let i = k + 1; i < n; i++) {
+      const o = i * n, ui = u[i]!;
       let acc = 0;
-      const o = i * n;
-      for (let j = k + 1; j < n; j++) acc += A[o + j]! * u[j]!;
-      w[i] = beta * acc;
+      for (let j = k + 1; j < i; j++) { const a = A[o + j]!; acc += a * u[j]!; w[j] += a * ui; }
+      w[i] += acc + A[o + i]! * ui;
     }
     let pu = 0;
-    for (let i = k + 1; i < n; i++) pu += w[i]! * u[i]!;
+    for (let i = k + 1; i < n; i++) { w[i] = beta * w[i]!; pu += w[i]! * u[i]!; }
     const kk = (beta * pu) / 2;
     for (let i = k + 1; i < n; i++) w[i] = w[i]! - kk * u[i]!;
-    // A22 −= u wᵀ + w uᵀ
     for (let i = k + 1; i < n; i++) {
       const ui = u[i]!, wi = w[i]!, o = i * n;
-      for (let j = k + 1; j < n; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
+      for (let j = k + 1; j <= i; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
     }
     d[k] = A[k * n + k]!;
     e[k] = s;
