@@ -11,7 +11,7 @@
  * the QL sweep follows the EISPACK tql1/tql2 pattern (Bowdler, Martin, Reinsch & Wilkinson, Numer. Math. 1968).
  */
 import type { Mat } from '../linalg/dense.js';
-import { cholesky, choleskySolve } from '../linalg/decomp.js';
+import { cholesky, choleskySolve, eigSym } from '../linalg/decomp.js';
 
 export interface NormalSystem {
   /** p × p, symmetric positive semi-definite */
@@ -97,7 +97,7 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Ar
         if (Math.abs(e[m]!) <= 2.2e-16 * dd + floor) break;
       }
       if (m === l) break;
-      if (++iter > 60) throw new Error('eigenCoordinates: QL iteration did not converge');
+      if (++iter > 300) return eigenCoordinatesDense(Ain, v);
       let g = (d[l + 1]! - d[l]!) / (2 * e[l]!);
       let r = Math.hypot(g, 1);
       g = d[m]! - d[l]! + e[l]! / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
@@ -124,6 +124,15 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Ar
     }
   }
   return { values: d, coords: z };
+}
+
+/** Fallback when the QL sweep does not converge: full eigen-decomposition (slower, robust). */
+function eigenCoordinatesDense(A: Mat, v: Float64Array): { values: Float64Array; coords: Float64Array } {
+  const e = eigSym(A);
+  const n = A.rows;
+  const coords = new Float64Array(n);
+  for (let m = 0; m < n; m++) { let s = 0; for (let r = 0; r < n; r++) s += e.vectors.data[r * n + m]! * v[r]!; coords[m] = s; }
+  return { values: Float64Array.from(e.values), coords };
 }
 
 export function ridgeSpectrum(sys: NormalSystem, P: Float64Array): RidgeSpectrum {
