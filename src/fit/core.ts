@@ -13,7 +13,9 @@ import type { Constraint } from './kink1d.js';
  * independence; Kendall & Gibbons, Rank Correlation Methods, 1990, ch. 4), one-sided.
  */
 export interface ScalingTest {
+  /** rank correlation of the relative residual with the response size */
   rho: number;
+  /** the test statistic (one-sided, ≈ N(0,1) or below for a linear system); see path1d.ts for the 1-D form */
   t: number;
   experiments: number;
   lowAmplitude: number;
@@ -35,6 +37,16 @@ function ranks(v: number[]): number[] {
 /** RMS of the predicted response per experiment. */
 export function responseSize(predE: Float64Array, n: Float64Array): Float64Array {
   return Float64Array.from(predE, (e, j) => (n[j]! > 0 ? Math.sqrt(e / n[j]!) : 0));
+}
+
+/** Spearman's rank correlation of two equally long lists. */
+export function rankCorrelation(x: number[], y: number[]): number {
+  const n = x.length;
+  const ra = ranks(x), rq = ranks(y);
+  const m = (n - 1) / 2;
+  let sab = 0, saa = 0, sbb = 0;
+  for (let k = 0; k < n; k++) { sab += (ra[k]! - m) * (rq[k]! - m); saa += (ra[k]! - m) ** 2; sbb += (rq[k]! - m) ** 2; }
+  return saa > 0 && sbb > 0 ? sab / Math.sqrt(saa * sbb) : 0;
 }
 
 export function scalingTest(amplitude: Float64Array, resE: Float64Array, resN: Float64Array): ScalingTest | null {

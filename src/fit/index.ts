@@ -96,7 +96,7 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
       verdict,
       statistic: sc.t,
       threshold: NONLINEAR_Z,
-      note: `held-out relative residual energy against the size of the predicted response, over the ${sc.experiments} experiments with the larger responses (response RMS ${sc.lowAmplitude.toPrecision(3)}–${sc.highAmplitude.toPrecision(3)}): Spearman ρ = ${sc.rho.toFixed(3)}, z = ${sc.t.toFixed(2)}; a linear system gives ρ ≤ 0 up to chance (nonlinear above z = ${NONLINEAR_Z})` +
+      note: `a kernel fitted to the experiments with the smaller responses predicts the ${sc.experiments} others (response RMS ${sc.lowAmplitude.toPrecision(3)}–${sc.highAmplitude.toPrecision(3)}); their residual beyond the noise grows with the response size faster than a linear system allows (t = ${Number.isFinite(sc.t) ? sc.t.toFixed(2) : String(sc.t)}, rank correlation ${sc.rho.toFixed(2)}; nonlinear above t = ${NONLINEAR_Z}, inconclusive above ${INCONCLUSIVE_Z})` +
         (verdict === 'nonlinear' ? '. The kernel is a local linearisation around the forcing amplitudes used, not a Green\'s function.' : '') +
         (ratio < 1.5 ? '. The response sizes vary little, so the scaling test has little power.' : ''),
     };

@@ -16,7 +16,7 @@ import {
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights, trainingStats,
 } from './kink1d.js';
 import { RidgeSolver, type NormalSystem } from './spectral.js';
-import { type CoreFit, scalingTest, responseSize } from './core.js';
+import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
 
 const PENALTY_ORDER = 2;
 
@@ -172,7 +172,76 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     repUh.push(u);
   }
 
-  const scaling = o.scaling ? scalingTest(responseSize(predE, resN), resE, resN) : null;
+  let scaling = o.scaling ? scalingTest(responseSize(predE, resN), resE, resN) : null;
+  // Scaling test, 1-D: refit on the experiments with the smaller responses (where a nonlinear term matters
+  // least), predict the others, and rank-correlate their excess relative residual with the response size.
+  const size = responseSize(predE, resN);
+  const bySize = Array.from({ length: prep.N }, (_, j) => j).sort((a, b) => size[a]! - size[b]!);
+  const nLow = Math.floor(prep.N / 2);
+  const low = new Uint8Array(prep.N);
+  bySize.slice(0, nLow).forEach((j) => { low[j] = 1; });
+  const lowSets = sets.map((J) => J.filter((j) => low[j]));
+  if (o.scaling && prep.N >= 16 && lowSets.every((J) => J.length >= 2)) {
+    o.progress('scaling test: refit on the experiments with the smaller responses');
+    const sl = setupKink(prep, Kf, lowSets);
+    const thL: Float64Array[] = [];
+    let rssL = 0, nL = 0, dofL = 0;
+    fits.forEach((f, p) => {
+      const sysL = assembleFull(sl, prep, p, Kf);
+      const red = reduceSystem(sysL, penaltyWeights(Kf, prep.cIn, f.order), f.map);
+      const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sysL.nObs) / Math.max(1, systems[p]!.nObs));
+      const eta = solver.solveVec(red.sys.r);
+      let quad = 0, lin = 0;
+      const n = eta.length;
+      for (let a = 0; a < n; a++) { lin += eta[a]! * red.sys.r[a]!; let t = 0; for (let b = 0; b < n; b++) t += red.sys.M.data[a * n + b]! * eta[b]!; quad += t * eta[a]!; }
+      rssL += Math.max(0, red.sys.yy - 2 * lin + quad); nL += red.sys.nObs; dofL += f.gcv.dof;
+      thL.push(expand(f.map, eta, sysL.r.length));
+    });
+    const s2L = rssL / Math.max(1, nL - dofL);
+    const eH = new Float64Array(prep.N), pH = new Float64Array(prep.N), cH = new Float64Array(prep.N);
+    sweepFeatures(prep, setup.Psi, Kf, (i, X) => {
+      for (let p = 0; p < prep.cOut; p++) {
+        const c = p * prep.nOut + i;
+        rowCoefficients(sl, thL[p]!, i, thRow);
+        const xb = sl.xbar.subarray(c * F, (c + 1) * F);
+        for (const j of sets[c]!) {
+          if (low[j]) continue;
+          let pred = 0;
+          const xo = j * F;
+          for (let f = 0; f < F; f++) pred += (X[xo + f]! - xb[f]!) * thRow[f]!;
+          const res = prep.U.data[j * colsOut + c]! - sl.ubar[c]! - pred;
+          eH[j] += res * res; pH[j] += pred * pred; cH[j]++;
+        }
+      }
+    });
+    const xs: number[] = [], ys: number[] = [];
+    let lo = Infinity, hi = -Infinity;
+    for (let j = 0; j < prep.N; j++) {
+      if (low[j] || !(cH[j]! > 0) || !(pH[j]! > 0)) continue;
+      xs.push(pH[j]!); ys.push((eH[j]! - cH[j]! * s2L) / pH[j]!);
+      const r = Math.sqrt(pH[j]! / cH[j]!); lo = Math.min(lo, r); hi = Math.max(hi, r);
+    }
+    if (xs.length >= 8) {
+      // excess residual energy e_j − n_j σ̂²_L = α s_j² + β s_j⁴ (+ zero-mean noise): a linear system's excess is
+      // its misfit, ∝ s_j²; a cubic term adds ∝ s_j⁴. t-statistic of β with heteroscedasticity-consistent
+      // (HC0) standard errors: White, Econometrica 48 (1980) 817–838.
+      const ex = xs.map((p2, k) => ys[k]! * p2);
+      const c1 = Math.max(...xs), c2 = c1 * c1;
+      let a11 = 0, a12 = 0, a22 = 0, b1 = 0, b2 = 0;
+      xs.forEach((p2, k) => { const u = p2 / c1, v = (p2 * p2) / c2; a11 += u * u; a12 += u * v; a22 += v * v; b1 += u * ex[k]!; b2 += v * ex[k]!; });
+      const det = a11 * a22 - a12 * a12;
+      if (det > 0) {
+        const i11 = a22 / det, i12 = -a12 / det, i22 = a11 / det;
+        const al = i11 * b1 + i12 * b2, be = i12 * b1 + i22 * b2;
+        let m11 = 0, m12 = 0, m22 = 0;
+        xs.forEach((p2, k) => { const u = p2 / c1, v = (p2 * p2) / c2; const r = ex[k]! - al * u - be * v; m11 += r * r * u * u; m12 += r * r * u * v; m22 += r * r * v * v; });
+        // (XᵀX)⁻¹ M (XᵀX)⁻¹, entry (2,2)
+        const v22 = i12 * (m11 * i12 + m12 * i22) + i22 * (m12 * i12 + m22 * i22);
+        const t = v22 > 0 ? be / Math.sqrt(v22) : 0;
+        scaling = { rho: rankCorrelation(xs, ys), t, experiments: xs.length, lowAmplitude: lo, highAmplitude: hi };
+      }
+    }
+  }
 
   const f0 = fits[0]!;
   const hyper: Record<string, number | string | boolean> = {

@@ -124,3 +124,15 @@ describe('linearity: no false alarms on linear studies', () => {
     expect(alarms).toBeLessThanOrEqual(1);
   });
 });
+
+describe('linearity: the cubic case is flagged', () => {
+  it('−u\'\' + 30u³ = f (simulator, Newton), amplitudes over [0.2, 5], noise 0.1: nonlinear, kernel labelled a linearisation', async () => {
+    const { parseOperator, simulateStudy } = await import('../../src/simulate/index.js');
+    const { parseGrid } = await import('../../src/cli/common.js');
+    const sim = simulateStudy(parseOperator('a=1; cubic=30'), { pointsIn: parseGrid('0:1:200'), count: 100, noise: 0.1, seed: 4, amplitudes: [0.2, 5], lengthScale: 0.03 });
+    const f = fitStudy(sim.study, { seed: 4, replicates: 3 });
+    expect(f.report.linearity.verdict).toBe('nonlinear');
+    expect(f.report.linearity.note).toMatch(/linearisation/);
+    expect(f.kernel.G.rows).toBe(200);
+  });
+});
