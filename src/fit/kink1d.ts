@@ -14,7 +14,7 @@
  * sensor/actuator points and several components cost nothing extra.
  */
 import type { Mat } from '../linalg/dense.js';
-import { zeros, matmulTN } from '../linalg/dense.js';
+import { zeros, matmul, matmulTN } from '../linalg/dense.js';
 import type { Prepared } from './prepare.js';
 import { legendreBasis } from './basis.js';
 import { type NormalSystem, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
@@ -132,26 +132,31 @@ export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][]
         for (let f = 0; f < F; f++) { const v = X[xo + f]! - xb[f]!; Xc.data[co + f] = v; r[f] += v * u; }
       });
       rowQ.set(matmulTN(Xc, Xc).data, c * F * F);
-      if (folds) {
-        for (let fo = 0; fo < nFolds; fo++) {
-          const idx: number[] = [];
-          J.forEach((j, n) => { if (folds.of[j] === fo) idx.push(n); });
-          const b = c * nFolds + fo;
-          folds.n[b] = idx.length;
-          if (!idx.length) continue;
-          const Yf = zeros(idx.length, F);
-          idx.forEach((n, m) => {
-            const v = prep.U.data[J[n]! * colsOut + c]! - ub;
-            folds.Sv[b] += v; folds.Svv[b] += v * v;
-            for (let f = 0; f < F; f++) { const y = Xc.data[n * F + f]!; Yf.data[m * F + f] = y; folds.Sy[b * F + f] += y; folds.Syv[b * F + f] += y * v; }
-          });
-          folds.Syy.set(matmulTN(Yf, Yf).data, b * F * F);
-        }
-      }
       rowYY[c] = yy;
       rowN[c] = nJ;
+      if (folds) {
+        J.forEach((j, n) => {
+          const b = c * nFolds + folds.of[j]!;
+          const v = prep.U.data[j * colsOut + c]! - ub;
+          folds.n[b]++; folds.Sv[b] += v; folds.Svv[b] += v * v;
+          const yo = n * F, so = b * F * F;
+          for (let f = 0; f < F; f++) {
+            const y = Xc.data[yo + f]!;
+            folds.Sy[b * F + f] += y; folds.Syv[b * F + f] += y * v;
+            if (y === 0) continue;
+            const o = so + f * F;
+            for (let g = f; g < F; g++) folds.Syy[o + g] += y * Xc.data[yo + g]!;
+          }
+        });
+      }
     }
   });
+  if (folds) {
+    for (let b = 0; b < nc * nFolds; b++) {
+      const so = b * F * F;
+      for (let f = 0; f < F; f++) for (let g = 0; g < f; g++) folds.Syy[so + f * F + g] = folds.Syy[so + g * F + f]!;
+    }
+  }
   return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar, folds };
 }
 
@@ -168,8 +173,11 @@ export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: num
   const P = K * Fk;
   const M = zeros(P, P), r = new Float64Array(P);
   let yy = 0, nObs = 0;
-  // M[(a,f),(a2,g)] = Σ_i φ_ia φ_ia2 Q_i[f,g]: one product (n × K²)ᵀ (n × Fk²)
-  const Aphi = zeros(nOut, K * K), Bq = zeros(nOut, Fk * Fk);
+  // M[(a,f),(a2,g)] = Σ_i φ_ia φ_ia2 Q_i[f,g] for a ≤ a2: one product (pairs × n)(n × Fk²)
+  const pairs: [number, number][] = [];
+  for (let a = 0; a < K; a++) for (let a2 = a; a2 < K; a2++) pairs.push([a, a2]);
+  const np = pairs.length;
+  const AphiT = zeros(np, nOut), Bq = zeros(nOut, Fk * Fk);
   for (let i = 0; i < nOut; i++) {
     const c = p * nOut + i;
     let Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F), rr = setup.rowR.subarray(c * F, (c + 1) * F);
@@ -183,20 +191,18 @@ export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: num
     yy += yyc;
     nObs += Math.max(0, nc - 1);
     const phi = setup.Phi.data.subarray(i * Kmax, i * Kmax + K);
-    for (let a = 0; a < K; a++) {
-      const pa = phi[a]!;
-      for (let f = 0; f < Fk; f++) r[a * Fk + f] += pa * rr[sel[f]!]!;
-      for (let a2 = 0; a2 < K; a2++) Aphi.data[i * K * K + a * K + a2] = pa * phi[a2]!;
-    }
+    for (let a = 0; a < K; a++) { const pa = phi[a]!; for (let f = 0; f < Fk; f++) r[a * Fk + f] += pa * rr[sel[f]!]!; }
+    for (let q = 0; q < np; q++) AphiT.data[q * nOut + i] = phi[pairs[q]![0]]! * phi[pairs[q]![1]]!;
   }
-  const Mr = matmulTN(Aphi, Bq);
-  for (let a = 0; a < K; a++) for (let a2 = 0; a2 < K; a2++) {
-    const src = (a * K + a2) * Fk * Fk;
+  const Mr = matmul(AphiT, Bq);
+  pairs.forEach(([a, a2], q) => {
+    const src = q * Fk * Fk;
     for (let f = 0; f < Fk; f++) {
       const row = (a * Fk + f) * P + a2 * Fk, so = src + f * Fk;
       for (let g = 0; g < Fk; g++) M.data[row + g] = Mr.data[so + g]!;
+      if (a2 !== a) for (let g = 0; g < Fk; g++) M.data[(a2 * Fk + g) * P + a * Fk + f] = Mr.data[so + g]!;
     }
-  }
+  });
   return { M, r, yy, nObs };
 }
 

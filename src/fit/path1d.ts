@@ -14,6 +14,7 @@ import type { Prepared } from './prepare.js';
 import {
   type Constraint, type KinkFit, type KinkSetup, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights, trainingStats,
+  symmetricMap, unconstrainedMap, embedTheta,
 } from './kink1d.js';
 import { RidgeSolver, type NormalSystem } from './spectral.js';
 import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
@@ -36,6 +37,23 @@ function homogeneousOf(prep: Prepared, setup: KinkSetup, thetas: Float64Array[],
   }
 }
 
+/**
+ * Refit with the chosen (K, penalty, constraint) on a subset of the data (a setup over other experiments, or
+ * leaving out a fold), λ scaled with the amount of data; θ returned in the Kmax layout.
+ */
+function solveAtChosenSize(setup: KinkSetup, prep: Prepared, p: number, f: KinkFit, Kf: number, nObsAll: number, leaveOut: number): { theta: Float64Array; rss: number; nObs: number } {
+  const K = f.K;
+  const sys = assembleFull(setup, prep, p, K, leaveOut);
+  const map = f.constraint === 'symmetric' ? symmetricMap(K, K) : unconstrainedMap(K, prep.cIn, K);
+  const red = reduceSystem(sys, penaltyWeights(K, prep.cIn, f.order), map);
+  const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sys.nObs) / Math.max(1, nObsAll));
+  const eta = solver.solveVec(red.sys.r);
+  let quad = 0, lin = 0;
+  const n = eta.length;
+  for (let a = 0; a < n; a++) { lin += eta[a]! * red.sys.r[a]!; let t = 0; for (let b = 0; b < n; b++) t += red.sys.M.data[a * n + b]! * eta[b]!; quad += t * eta[a]!; }
+  return { theta: embedTheta(expand(map, eta, sys.r.length), K, Kf, prep.cIn), rss: Math.max(0, red.sys.yy - 2 * lin + quad), nObs: red.sys.nObs };
+}
+
 export function fitPath1d(prep: Prepared, sets: number[][], o: {
   constraint: Constraint; rng: Rng; replicates: number; sigmaKnown?: number; progress: (m: string) => void; scaling: boolean;
 }): CoreFit {
@@ -51,13 +69,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     constraint = 'none';
   }
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);
-  // cross-validation folds over experiments (seeded): held-out residuals for the scaling test and the
-  // cross-validated residual in fit.json
-  const nFolds = Math.min(5, prep.N);
-  const perm = o.rng.permutation(prep.N);
-  const foldOf = new Int32Array(prep.N);
-  perm.forEach((j, r) => { foldOf[j] = r % nFolds; });
-  const setup = setupKink(prep, Kf, sets, foldOf, nFolds);
+  const setup = setupKink(prep, Kf, sets);
   const fits: KinkFit[] = [];
   const systems: NormalSystem[] = [];
   for (let p = 0; p < prep.cOut; p++) {
@@ -81,16 +93,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const colsOut = prep.nOut * prep.cOut;
   const P0 = Kf * setup.F;
   const rhs = Array.from({ length: R }, () => Array.from({ length: prep.cOut }, () => new Float64Array(P0)));
-  // fold refits with the chosen model (λ scaled with the amount of data)
-  o.progress(`${nFolds}-fold cross-validation over experiments`);
-  const foldTheta = fits.map((f, p) => Array.from({ length: nFolds }, (_, fo) => {
-    const sysT = assembleFull(setup, prep, p, Kf, fo);
-    const red = reduceSystem(sysT, penaltyWeights(Kf, prep.cIn, f.order), f.map);
-    const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sysT.nObs) / Math.max(1, systems[p]!.nObs));
-    return expand(f.map, solver.solveVec(red.sys.r), sysT.r.length);
-  }));
-  let cvNum = 0, cvDen = 0;
-  // per-experiment held-out residual energy (for the scaling test)
+  // per-experiment residual and predicted-response energy of the fit (for the scaling test)
   const resE = new Float64Array(prep.N), resN = new Float64Array(prep.N), predE = new Float64Array(prep.N);
   const thRow = new Float64Array(setup.F);
   const meanEps = Array.from({ length: R }, () => new Float64Array(colsOut));
@@ -125,20 +128,13 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
         meanEps[r]![c] = accumulate(sets[c]!, eps[r]!, rhs[r]![p]!);
       }
       const xb = setup.xbar.subarray(c * F, (c + 1) * F);
-      for (let fo = 0; fo < nFolds; fo++) {
-        const tsx = trainingStats(setup, c, fo);
-        if (tsx.n < 1) continue;
-        rowCoefficients(setup, foldTheta[p]![fo]!, i, thRow);
-        for (const j of sets[c]!) {
-          if (foldOf[j] !== fo) continue;
-          let pred = 0;
-          const xo = j * F;
-          for (let f = 0; f < F; f++) pred += (X[xo + f]! - xb[f]! - tsx.ybar[f]!) * thRow[f]!;
-          const v = prep.U.data[j * colsOut + c]! - setup.ubar[c]!;
-          const res = v - tsx.vbar - pred;
-          resE[j] += res * res; resN[j]++; predE[j] += pred * pred;
-          cvNum += res * res; cvDen += (v - tsx.vbar) ** 2;
-        }
+      rowCoefficients(setup, thetas[p]!, i, thRow);
+      for (const j of sets[c]!) {
+        let pred = 0;
+        const xo = j * F;
+        for (let f = 0; f < F; f++) pred += (X[xo + f]! - xb[f]!) * thRow[f]!;
+        const res = prep.U.data[j * colsOut + c]! - setup.ubar[c]! - pred;
+        resE[j] += res * res; resN[j]++; predE[j] += pred * pred;
       }
     }
   });
@@ -187,15 +183,9 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     const thL: Float64Array[] = [];
     let rssL = 0, nL = 0, dofL = 0;
     fits.forEach((f, p) => {
-      const sysL = assembleFull(sl, prep, p, Kf);
-      const red = reduceSystem(sysL, penaltyWeights(Kf, prep.cIn, f.order), f.map);
-      const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sysL.nObs) / Math.max(1, systems[p]!.nObs));
-      const eta = solver.solveVec(red.sys.r);
-      let quad = 0, lin = 0;
-      const n = eta.length;
-      for (let a = 0; a < n; a++) { lin += eta[a]! * red.sys.r[a]!; let t = 0; for (let b = 0; b < n; b++) t += red.sys.M.data[a * n + b]! * eta[b]!; quad += t * eta[a]!; }
-      rssL += Math.max(0, red.sys.yy - 2 * lin + quad); nL += red.sys.nObs; dofL += f.gcv.dof;
-      thL.push(expand(f.map, eta, sysL.r.length));
+      const z = solveAtChosenSize(sl, prep, p, f, Kf, systems[p]!.nObs, -1);
+      rssL += z.rss; nL += z.nObs; dofL += f.gcv.dof;
+      thL.push(z.theta);
     });
     const s2L = rssL / Math.max(1, nL - dofL);
     const eH = new Float64Array(prep.N), pH = new Float64Array(prep.N), cH = new Float64Array(prep.N);
@@ -259,7 +249,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     method: constraint === 'symmetric'
       ? 'diagonal-kink Legendre model, self-adjoint (C symmetric, D antisymmetric), ridge with GCV'
       : 'diagonal-kink Legendre model G = A + sign(x−s)·B, ridge with GCV',
-    hyper, G, uh, rss, dof, nObs, yy, gcvMse: gcvNum / nObs, cvRelative: cvDen > 0 ? Math.sqrt(cvNum / cvDen) : null,
+    hyper, G, uh, rss, dof, nObs, yy, gcvMse: gcvNum / nObs,
     sigma: Math.sqrt(sigma2.reduce((a, b, p) => a + b * systems[p]!.nObs, 0) / nObs),
     replicates: repG, homogeneousReplicates: repUh, scaling, notes, constraint,
     complete: true,
