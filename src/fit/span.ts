@@ -15,6 +15,7 @@ import { eigSym, cholesky, choleskySolve } from '../linalg/decomp.js';
 import type { Rng } from '../linalg/rng.js';
 import { covarianceMatrix, medianSpacing, type Covariance } from '../design/gp.js';
 import type { Prepared } from './prepare.js';
+import { tensorAxes } from '../quadrature.js';
 import type { Constraint } from './kink1d.js';
 import { type CoreFit, scalingTest, responseSize } from './core.js';
 
@@ -141,14 +142,16 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     if (!best || sol.gcv < best.sol.gcv) best = { prior, sol, KWF, A };
   }
   const { prior, sol } = best!;
+  const hyperX: Record<string, number | string> = {};
+  let gcvX = sol.gcv, rssX = sol.rss, dofX = sol.dof;
   // kernel rows
   const G = zeros(colsOut, nI);
   const uh = new Float64Array(colsOut);
   const R = o.replicates;
   const repG = Array.from({ length: R }, () => zeros(colsOut, nI));
   const repUh = Array.from({ length: R }, () => new Float64Array(colsOut));
-  const sigma2 = sol.rss / Math.max(1, nObsChoice - sol.dof);
-  const sigmaRep = o.sigmaKnown ?? Math.sqrt(sigma2);
+  let sigma2 = sol.rss / Math.max(1, nObsChoice - sol.dof);
+  let sigmaRep = o.sigmaKnown ?? Math.sqrt(sigma2);
   // forcing means over all experiments (for u_h of complete rows)
   const fbar = new Float64Array(nI);
   for (let j = 0; j < N; j++) for (let c = 0; c < nI; c++) fbar[c] += prep.FW.data[j * nI + c]! / N;
@@ -163,7 +166,19 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
       ubar[r] = m;
       for (let j = 0; j < N; j++) Ucomp.data[r * N + j] = u[j]! - m;
     });
-    const Gc = matmulNT(Ucomp, sol.T);
+    // optional smoothness prior across sensors (tensor-grid sensors, all rows complete): G ~ MN(0, K_x, K_s)
+    let mapRows = (U: Mat): Mat => matmulNT(U, sol.T);
+    if (complete.length === colsOut && cOut === 1) {
+      const kx = kroneckerChoice(prep, best!.A, best!.KWF, Ucomp, nObsChoice, sol.gcv);
+      if (kx) {
+        mapRows = kx.map;
+        hyperX.sensor_prior = kx.name; hyperX.sensor_prior_length_scale = kx.lengthScale; hyperX.lambda = kx.lambda;
+        hyperX.effective_parameters = kx.dof; gcvX = kx.gcv; rssX = kx.rss; dofX = kx.dof;
+        notes.push(`a squared-exponential prior across sensors (length ${kx.lengthScale.toPrecision(3)}) lowered the GCV score; kernel rows are smoothed across neighbouring sensors`);
+      }
+    }
+    if (gcvX !== sol.gcv) { sigma2 = rssX / Math.max(1, nObsChoice - dofX); sigmaRep = o.sigmaKnown ?? Math.sqrt(sigma2); }
+    const Gc = mapRows(Ucomp);
     const GWF = matmulNT(Gc, FWc); // Ĝ W F̃ᵀ (rows × N)
     complete.forEach((c, r) => {
       G.data.set(Gc.data.subarray(r * nI, (r + 1) * nI), c * nI);
@@ -181,7 +196,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
         m /= N; me[r] = m;
         for (let j = 0; j < N; j++) D.data[r * N + j] = GWF.data[r * N + j]! + e[j]! - m;
       }
-      const Gr = matmulNT(D, sol.T);
+      const Gr = mapRows(D);
       complete.forEach((c, r) => {
         repG[rep]!.data.set(Gr.data.subarray(r * nI, (r + 1) * nI), c * nI);
         let s = 0;
@@ -252,11 +267,103 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   }
   return {
     method: 'span model: GP-prior ridge of each kernel row on the forcings\' span (kriging), prior and λ by GCV',
-    hyper: { prior: prior.name, prior_length_scale: prior.lengthScale, lambda: sol.lambda, effective_parameters: sol.dof, priors_tried: tried.join(' ') },
-    G, uh, rss: sol.rss, dof: sol.dof, nObs: nObsChoice, yy: frob2(Uc), gcvMse: sol.gcv,
+    hyper: { prior: prior.name, prior_length_scale: prior.lengthScale, lambda: sol.lambda, effective_parameters: sol.dof, priors_tried: tried.join(' '), ...hyperX },
+    G, uh, rss: rssX, dof: dofX, nObs: nObsChoice, yy: frob2(Uc), gcvMse: gcvX,
     sigma: Math.sqrt(sigma2), replicates: repG, homogeneousReplicates: repUh, scaling, notes,
     constraint: 'none', complete: false, inputDof: nI,
   };
+}
+
+/**
+ * Matrix-normal prior G ~ MN(0, K_x, K_s) with K_x a squared-exponential covariance over tensor-grid sensors
+ * (separable, so its eigen-decomposition comes from the two axes). With A = F̃ W K_s W F̃ᵀ = V_a D_a V_aᵀ
+ * and K_x = V_x D_x V_xᵀ, the posterior mean solves a Sylvester equation diagonal in the two eigenbases:
+ * G = V_x [D_x (V_xᵀ Ũ V_a) ⊘ (d_x d_aᵀ + λ)] V_aᵀ F̃ W K_s (Kronecker-structured GP regression:
+ * Stegle et al., NeurIPS 2011; Saatçi, PhD thesis, Cambridge 2011). Returns null unless GCV prefers it
+ * to the row-wise model (K_x = I).
+ */
+function kroneckerChoice(prep: Prepared, A: Mat, KWF: Mat, Uc: Mat, nObs: number, gcvRowwise: number):
+  { name: string; lengthScale: number; lambda: number; gcv: number; rss: number; dof: number; map: (U: Mat) => Mat } | null {
+  if (prep.dimension !== 2) return null;
+  const axes = tensorAxes(prep.pointsOut);
+  if (!axes) return null;
+  const { xs, ys } = axes;
+  const nx = xs.length, ny = ys.length, n = prep.nOut, N = A.rows;
+  const nearest = (arr: number[], v: number) => { let b = 0; for (let k = 1; k < arr.length; k++) if (Math.abs(arr[k]! - v) < Math.abs(arr[b]! - v)) b = k; return b; };
+  const ix = new Int32Array(n), iy = new Int32Array(n);
+  for (let p = 0; p < n; p++) { ix[p] = nearest(xs, prep.pointsOut.data[2 * p]!); iy[p] = nearest(ys, prep.pointsOut.data[2 * p + 1]!); }
+  const ea = eigSym(A);
+  const da = Float64Array.from(ea.values, (v) => Math.max(v, 0));
+  const axisPts = (v: number[]): Mat => ({ rows: v.length, cols: 1, data: Float64Array.from(v) });
+  const h = Math.min(xs[1]! - xs[0]!, ys[1]! - ys[0]!);
+  let best: { name: string; lengthScale: number; lambda: number; gcv: number; rss: number; dof: number; V1: Mat; V2: Mat; dx: Float64Array } | null = null;
+  for (const m of [1, 2, 4]) {
+    const l = m * h;
+    const e1 = eigSym(covarianceMatrix(axisPts(xs), 'se', l)), e2 = eigSym(covarianceMatrix(axisPts(ys), 'se', l));
+    const dx = new Float64Array(nx * ny);
+    for (let a = 0; a < nx; a++) for (let b = 0; b < ny; b++) dx[a * ny + b] = Math.max(0, e1.values[a]!) * Math.max(0, e2.values[b]!);
+    const C = matmul(toEig(Uc, e1.vectors, e2.vectors, ix, iy, nx, ny), ea.vectors);
+    const c2 = C.data;
+    let top = 0;
+    for (let i = 0; i < nx * ny; i++) top = Math.max(top, dx[i]! * da[0]!);
+    for (let k = 0; k <= 60; k++) {
+      const lam = top * Math.pow(10, -14 + (15 * k) / 60);
+      let rss = 0, dof = 0;
+      for (let i = 0; i < nx * ny; i++) for (let q = 0; q < N; q++) {
+        const dd = dx[i]! * da[q]!, f = lam / (dd + lam);
+        rss += f * f * c2[i * N + q]! ** 2; dof += dd / (dd + lam);
+      }
+      const gcv = nObs - dof > 0 ? (nObs * rss) / (nObs - dof) ** 2 : Infinity;
+      if (!best || gcv < best.gcv) best = { name: `se:${m}h`, lengthScale: l, lambda: lam, gcv, rss, dof, V1: e1.vectors, V2: e2.vectors, dx };
+    }
+  }
+  if (!best || !(best.gcv < gcvRowwise)) return null;
+  const b = best;
+  const tail = matmulNT(ea.vectors, KWF); // V_aᵀ F̃ W K_s as (N × nI): (V_a)ᵀ · KWFᵀ
+  const Vt = zeros(N, N);
+  for (let a = 0; a < N; a++) for (let q = 0; q < N; q++) Vt.data[a * N + q] = ea.vectors.data[q * N + a]!;
+  const tailM = matmul(Vt, { rows: N, cols: KWF.rows, data: transposeData(KWF) });
+  void tail;
+  const map = (U: Mat): Mat => {
+    const C = matmul(toEig(U, b.V1, b.V2, ix, iy, nx, ny), ea.vectors);
+    for (let i = 0; i < nx * ny; i++) for (let q = 0; q < N; q++) C.data[i * N + q] *= b.dx[i]! / (b.dx[i]! * da[q]! + b.lambda);
+    return matmul(fromEig(C, b.V1, b.V2, ix, iy, nx, ny), tailM);
+  };
+  return { name: b.name, lengthScale: b.lengthScale, lambda: b.lambda, gcv: b.gcv, rss: b.rss, dof: b.dof, map };
+}
+
+function transposeData(m: Mat): Float64Array {
+  const out = new Float64Array(m.rows * m.cols);
+  for (let i = 0; i < m.rows; i++) for (let j = 0; j < m.cols; j++) out[j * m.rows + i] = m.data[i * m.cols + j]!;
+  return out;
+}
+
+/** V_xᵀ Y for V_x = V1 ⊗ V2 on grid sensors: per column, V1ᵀ Z V2 with Z the column laid on the grid. */
+function toEig(Y: Mat, V1: Mat, V2: Mat, ix: Int32Array, iy: Int32Array, nx: number, ny: number): Mat {
+  const out = zeros(nx * ny, Y.cols);
+  const Z = new Float64Array(nx * ny), T = new Float64Array(nx * ny);
+  for (let j = 0; j < Y.cols; j++) {
+    Z.fill(0);
+    for (let p = 0; p < Y.rows; p++) Z[ix[p]! * ny + iy[p]!] = Y.data[p * Y.cols + j]!;
+    T.fill(0); // T = V1ᵀ Z
+    for (let r = 0; r < nx; r++) for (let a = 0; a < nx; a++) { const v = V1.data[r * nx + a]!; if (v === 0) continue; for (let c = 0; c < ny; c++) T[a * ny + c] += v * Z[r * ny + c]!; }
+    for (let a = 0; a < nx; a++) for (let bb = 0; bb < ny; bb++) { let s = 0; for (let c = 0; c < ny; c++) s += T[a * ny + c]! * V2.data[c * ny + bb]!; out.data[(a * ny + bb) * Y.cols + j] = s; }
+  }
+  return out;
+}
+
+/** V_x R: per column, V1 R V2ᵀ read back at the sensors. */
+function fromEig(R: Mat, V1: Mat, V2: Mat, ix: Int32Array, iy: Int32Array, nx: number, ny: number): Mat {
+  const n = ix.length;
+  const out = zeros(n, R.cols);
+  const Z = new Float64Array(nx * ny), T = new Float64Array(nx * ny);
+  for (let j = 0; j < R.cols; j++) {
+    T.fill(0); // T = V1 R
+    for (let r = 0; r < nx; r++) for (let a = 0; a < nx; a++) { const v = V1.data[r * nx + a]!; if (v === 0) continue; for (let bb = 0; bb < ny; bb++) T[r * ny + bb] += v * R.data[(a * ny + bb) * R.cols + j]!; }
+    for (let r = 0; r < nx; r++) for (let c = 0; c < ny; c++) { let s = 0; for (let bb = 0; bb < ny; bb++) s += T[r * ny + bb]! * V2.data[c * ny + bb]!; Z[r * ny + c] = s; }
+    for (let p = 0; p < n; p++) out.data[p * R.cols + j] = Z[ix[p]! * ny + iy[p]!]!;
+  }
+  return out;
 }
 
 function frob2(m: Mat): number {
