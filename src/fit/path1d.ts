@@ -12,7 +12,7 @@ import { zeros } from '../linalg/dense.js';
 import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
-  type Constraint, type KinkFit, type KinkSetup, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
+  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights, trainingStats,
   symmetricMap, unconstrainedMap, embedTheta,
 } from './kink1d.js';
@@ -71,6 +71,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);
   const setup = setupKink(prep, Kf, sets);
   const fits: KinkFit[] = [];
+  const choices: KinkChoice[] = [];
   const systems: NormalSystem[] = [];
   for (let p = 0; p < prep.cOut; p++) {
     const sys = assembleFull(setup, prep, p, Kf);
@@ -78,6 +79,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     o.progress(`choosing basis size and regularisation by GCV${prep.cOut > 1 ? ` (output component ${p + 1})` : ''}`);
     const choice = chooseKink(sys, Kf, prep.cIn, constraint, [PENALTY_ORDER]);
     fits.push(solveKink(sys, Kf, prep.cIn, choice, constraint));
+    choices.push(choice);
   }
   const thetas = fits.map((f) => f.theta);
   const G = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn);
@@ -137,6 +139,24 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
         resE[j] += res * res; resN[j]++; predE[j] += pred * pred;
       }
     }
+  });
+  // truncation error of the basis size (invisible to the bootstrap): the fits at the two next smaller
+  // sizes K' > K'' give d1 = ‖Ĝ_K − Ĝ_K'‖, d2 = ‖Ĝ_K' − Ĝ_K''‖; if they converge (d1 < d2), geometric
+  // convergence extrapolates the error at K to d1 (d1/d2)^((K − K')/(K' − K'')) (Richardson-type estimate).
+  let trunc2 = 0;
+  fits.forEach((f, p) => {
+    const smaller = choices[p]!.tried.filter((t) => t.K < f.K && t.order === f.order).sort((a, b) => b.K - a.K);
+    if (smaller.length < 2) return;
+    const [t1, t2] = smaller as [typeof smaller[0], typeof smaller[0]];
+    const sysP = systems[p]!;
+    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint).theta;
+    const G1 = zeros(prep.nOut, prep.nIn * prep.cIn), G2 = zeros(prep.nOut, prep.nIn * prep.cIn), G0 = zeros(prep.nOut, prep.nIn * prep.cIn);
+    const put = (th: Float64Array, M: Mat) => { const full = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn); kernelRows(prep, setup, th, p, full); M.data.set(full.data.subarray(p * prep.nOut * M.cols, (p + 1) * prep.nOut * M.cols)); };
+    put(thetas[p]!, G0); put(at(t1), G1); put(at(t2), G2);
+    let d1 = 0, d2 = 0;
+    for (let u = 0; u < G0.data.length; u++) { d1 += (G0.data[u]! - G1.data[u]!) ** 2; d2 += (G1.data[u]! - G2.data[u]!) ** 2; }
+    d1 = Math.sqrt(d1); d2 = Math.sqrt(d2);
+    if (d1 < d2 && d2 > 0) trunc2 += (d1 * Math.pow(d1 / d2, (f.K - t1.K) / (t1.K - t2.K))) ** 2;
   });
   const repG: Mat[] = [], repUh: Float64Array[] = [];
   const th = new Float64Array(F);
@@ -253,6 +273,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     sigma: Math.sqrt(sigma2.reduce((a, b, p) => a + b * systems[p]!.nObs, 0) / nObs),
     replicates: repG, homogeneousReplicates: repUh, scaling, notes, constraint,
     complete: true,
+    truncationError: Math.sqrt(trunc2),
     inputDof: Math.max(...fits.map((f) => 2 * f.K * prep.cIn)),
   };
 }
