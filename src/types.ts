@@ -159,6 +159,13 @@ export interface Evidence {
   explanation: string;
   /** data for the analysis' plot (free form, JSON-serialisable) */
   plot?: Record<string, unknown>;
+  /**
+   * For analyses whose finding is a list (singularities, interfaces): whether the list is a
+   * claim ('found' / 'none': "there is none") or 'inconclusive' (nothing could be decided at
+   * this noise level), with the confidence of that claim.
+   */
+  verdict?: 'found' | 'none' | 'inconclusive';
+  confidence?: number;
 }
 
 export interface Findings {

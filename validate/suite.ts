@@ -7,7 +7,7 @@ import { parseOperator, simulateStudy } from '../src/simulate/index.js';
 import { diagnoseStudy } from '../src/pipeline.js';
 import { Rng } from '../src/linalg/rng.js';
 import type { Mat } from '../src/linalg/dense.js';
-import type { Findings } from '../src/types.js';
+import type { Findings, Evidence } from '../src/types.js';
 import type { Case, Expect } from './cases.js';
 
 export type Outcome = 'right' | 'unsure' | 'wrong';
@@ -78,11 +78,14 @@ function verdictCheck(what: string, got: string | number | null | undefined, wan
 }
 
 /** Locations found vs expected: count must match, each within tol (0.02 of the domain length). */
-function locationCheck(what: string, found: { location: unknown; confidence?: number }[], want: number[], tol: number): Check {
+function locationCheck(what: string, found: { location: unknown; confidence?: number }[], want: number[], tol: number, ev?: Evidence): Check {
   const xs = found.map((f) => Number(f.location)).sort((a, b) => a - b);
-  const c = found.length ? Math.min(...found.map((f) => conf(f.confidence))) : 1;
+  // an empty list is a claim of absence unless the analysis said it could not decide
+  const c = found.length ? Math.min(...found.map((f) => conf(f.confidence))) : conf(ev?.confidence);
   const ok = xs.length === want.length && want.every((w, i) => Math.abs(xs[i]! - w) <= tol);
-  return { what, outcome: ok ? 'right' : 'wrong', confidence: c, got: `[${xs.map((x) => x.toFixed(3)).join(', ')}]`, want: `[${want.join(', ')}]` };
+  const got = `[${xs.map((x) => x.toFixed(3)).join(', ')}]`;
+  if (!ok && ev?.verdict === 'inconclusive') return { what, outcome: 'unsure', confidence: c, got: `${got} (inconclusive)`, want: `[${want.join(', ')}]` };
+  return { what, outcome: ok ? 'right' : 'wrong', confidence: c, got, want: `[${want.join(', ')}]` };
 }
 
 function relCheck(what: string, got: number | null | undefined, want: number, tol: number, confidence: number): Check {
@@ -117,8 +120,8 @@ export function score(f: Findings, e: Expect, noise: number, domainLength: numbe
   if (e.wavenumber) out.push(relCheck('wavenumber', f.oscillation.wavenumber, e.wavenumber, 0.03, conf(f.oscillation.confidence)));
   if (e.screening) out.push(verdictCheck('screening', f.screening.verdict, e.screening, conf(f.screening.confidence)));
   if (e.screeningLength) out.push(relCheck('screening length', f.screening.length, e.screeningLength, 0.10, conf(f.screening.confidence)));
-  if (e.interfaces) out.push(locationCheck('interfaces', f.interfaces, e.interfaces, 0.02 * domainLength));
-  if (e.singularities) out.push(locationCheck('singularities', f.singularities, e.singularities, 0.02 * domainLength));
+  if (e.interfaces) out.push(locationCheck('interfaces', f.interfaces, e.interfaces, 0.02 * domainLength, f.evidence.interfaces));
+  if (e.singularities) out.push(locationCheck('singularities', f.singularities, e.singularities, 0.02 * domainLength, f.evidence.singularities));
   if (e.coupling) out.push(verdictCheck('coupling', f.coupling.verdict, e.coupling, conf(f.coupling.confidence)));
   if (e.linearity) out.push(verdictCheck('linearity', f.linearity.verdict, e.linearity, conf(f.linearity.confidence)));
   if (e.coefficients?.diffusion !== undefined) out.push(...termCheck(f, 'diffusion', e.coefficients.diffusion, noise));
