@@ -170,7 +170,9 @@ function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint
   ];
   if (!applied) refits[1]!.relative_residual = prevEntry.relative_residual;
   const chosen = useRefit ? res : previous;
-  const out: FitResult = { kernel: chosen.kernel, noise: chosen.noise, report: { ...chosen.report, refits } };
+  // the scaling test belongs to the data, not to the constraint: keep the unconstrained fit's verdict
+  const linearity = chosen.report.linearity.verdict === 'not-tested' ? previous.report.linearity : chosen.report.linearity;
+  const out: FitResult = { kernel: chosen.kernel, noise: chosen.noise, report: { ...chosen.report, linearity, refits } };
   const extra = out.report as FitReport & Record<string, unknown>;
   extra.refit_note = !applied
     ? `the ${constraint} constraint could not be applied to this study; the unconstrained kernel is used`

@@ -17,6 +17,7 @@ import {
   symmetricMap, unconstrainedMap, embedTheta,
 } from './kink1d.js';
 import { RidgeSolver, type NormalSystem } from './spectral.js';
+import { fitPathTranslation } from './translation1d.js';
 import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
 
 const PENALTY_ORDER = 2;
@@ -65,7 +66,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     constraint = 'none';
   }
   if (constraint === 'translation') {
-    notes.push('a translation-invariant refit is not implemented for 1-D studies; the unconstrained kernel is used');
+    if (prep.cIn === 1 && prep.cOut === 1) return fitPathTranslation(prep, sets, o);
+    notes.push('the translation-invariant refit is implemented for one component; the unconstrained kernel is used');
     constraint = 'none';
   }
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);

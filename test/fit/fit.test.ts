@@ -7,7 +7,7 @@
  */
 import { describe, it, expect } from 'vitest';
 import { synth1d } from './studies.js';
-import { laplace, helmholtz, advdiff, uniformGrid } from '../helpers/closedForms.js';
+import { laplace, helmholtz, advdiff, screened, uniformGrid } from '../helpers/closedForms.js';
 import { fitStudy, refit } from '../../src/fit/index.js';
 import { relativeError } from '../../src/linalg/dense.js';
 import { Rng } from '../../src/linalg/rng.js';
@@ -134,5 +134,27 @@ describe('linearity: the cubic case is flagged', () => {
     expect(f.report.linearity.verdict).toBe('nonlinear');
     expect(f.report.linearity.note).toMatch(/linearisation/);
     expect(f.kernel.G.rows).toBe(200);
+  });
+});
+
+describe('translation-invariant refit', () => {
+  // free-space Green's function of −u'' + κ²u on the line, e^{−κ|x−s|}/(2κ), κ = 10 (Duffy, ODE chapter;
+  // the 1-D analogue of entry (k) — from memory), sampled on [0, 1]: a pure convolution kernel
+  const free = (x: number, s: number) => Math.exp(-10 * Math.abs(x - s)) / 20;
+  it('a convolution kernel: the refit is used and is more accurate (noise 0.1)', () => {
+    const s = synth1d(free, { noise: 0.1, seed: 1 });
+    const f = fitStudy(s.study, { seed: 1, replicates: 5 });
+    const t = refit(s.study, f, 'translation');
+    expect(t.report.refits.find((r) => r.constraint === 'translation')!.used).toBe(true);
+    expect(relativeError(t.kernel.G, s.G)).toBeLessThan(0.7 * relativeError(f.kernel.G, s.G));
+    expect(t.noise.replicates).toHaveLength(5);
+  });
+  it('(c) screened Dirichlet kernel (not translation invariant near the ends): the refit is not used', () => {
+    // (c) −u'' + κ²u, Dirichlet, κ = 10 — Duffy; Butkovskiy (from memory)
+    const s = synth1d(screened(10), { noise: 0.1, seed: 1 });
+    const f = fitStudy(s.study, { seed: 1, replicates: 5 });
+    const t = refit(s.study, f, 'translation');
+    expect(t.report.refits.find((r) => r.constraint === 'translation')!.used).toBe(false);
+    expect(Array.from(t.kernel.G.data)).toEqual(Array.from(f.kernel.G.data));
   });
 });
