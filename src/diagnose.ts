@@ -8,7 +8,7 @@ import type { AnalysisOutput, Context } from './analyses/analysis.js';
 import { analyses as registry } from './analyses/registry.js';
 import { Rng } from './linalg/rng.js';
 import { TOOL } from './version.js';
-import { selfEstimatedNoiseFloor } from './noiseFloor.js';
+import { selfEstimatedNoiseFloor, withModelError } from './noiseFloor.js';
 import { buildHypotheses } from './hypotheses/index.js';
 
 export interface DiagnoseInput {
@@ -57,7 +57,9 @@ export interface DiagnoseResult {
 
 export function diagnose(input: DiagnoseInput, opts: DiagnoseOptions): DiagnoseResult {
   const { kernel } = input;
-  const noise = input.noise ?? selfEstimatedNoiseFloor(kernel, opts.seed);
+  const noise = input.noise
+    ? (input.fit ? withModelError(input.noise, kernel, input.fit.uncertainty.relative_kernel_error, input.fit.uncertainty.relative_homogeneous_error, opts.seed) : input.noise)
+    : selfEstimatedNoiseFloor(kernel, opts.seed);
   const rng = new Rng(opts.seed);
   const results: Record<string, AnalysisOutput<unknown>> = {};
   const findings = fallback() as unknown as Record<string, unknown>;

@@ -150,3 +150,136 @@ export function selfEstimatedNoiseFloor(kernel: Kernel, seed: number, count = 30
       `more confident than the data behind the kernel justify.`,
   };
 }
+
+/**
+ * Make a fit's replicates carry its whole predicted error, not only the part resampling sees.
+ * Resampling the experiments measures the estimator's variance; at low noise the error is
+ * mostly bias (what the forcings cannot identify, truncation), which identical replicates
+ * would hide, and every tiny defect would then look significant. When the replicates' mean
+ * relative deviation δ_boot falls short of the fit's predicted relative error δ, each replicate
+ * gets an extra perturbation of relative size √(δ² − δ_boot²) in the span of the kernel's
+ * leading singular vectors (U Z Vᵀ with Z iid Gaussian, not symmetric), so that structural
+ * statistics see an error of the size the fit itself claims.
+ */
+export function withModelError(noise: NoiseFloor, kernel: Kernel, predictedRelErr: number, predictedHomErr: number | null, seed: number): NoiseFloor {
+  const G = kernel.G;
+  const gNorm = Math.sqrt(G.data.reduce((s, v) => s + v * v, 0));
+  if (!(gNorm > 0) || !(predictedRelErr > 0) || noise.replicates.length === 0) return noise;
+  // spread about the replicates' own mean: a bias common to all replicates is invisible to the analyses
+  const R = noise.replicates.length;
+  const mu = new Float64Array(G.data.length);
+  for (const r of noise.replicates) for (let i = 0; i < mu.length; i++) mu[i] += r.data[i]! / R;
+  let dev = 0;
+  for (const r of noise.replicates) {
+    let s = 0;
+    for (let i = 0; i < G.data.length; i++) { const d = r.data[i]! - mu[i]!; s += d * d; }
+    dev += Math.sqrt(s) / gNorm;
+  }
+  dev /= R;
+  const extra = predictedRelErr * predictedRelErr - dev * dev;
+  if (!(extra > 0) || Math.sqrt(extra) < 0.25 * dev) return noise;
+  const rng = new Rng((seed ^ 0x6d0de1) >>> 0);
+  const k = Math.min(12, G.rows, G.cols);
+  const { U, V } = leadingSingularVectors(G, k, rng);
+  const amp = Math.sqrt(extra) * gNorm / k;
+  const replicates = noise.replicates.map((r) => {
+    const Z = Float64Array.from({ length: k * k }, () => rng.normal());
+    const out = new Float64Array(r.data);
+    for (let i = 0; i < G.rows; i++) {
+      // row i of U Z: t_j = Σ_a U_ia Z_aj
+      const t = new Float64Array(k);
+      for (let a = 0; a < k; a++) { const u = U.data[i * k + a]!; if (u !== 0) for (let j = 0; j < k; j++) t[j] += u * Z[a * k + j]!; }
+      for (let c = 0; c < G.cols; c++) {
+        let s = 0;
+        for (let j = 0; j < k; j++) s += t[j]! * V.data[c * k + j]!;
+        out[i * G.cols + c] += amp * s;
+      }
+    }
+    return { rows: r.rows, cols: r.cols, data: out };
+  });
+  let homogeneousReplicates = noise.homogeneousReplicates;
+  if (kernel.homogeneous && predictedHomErr && predictedHomErr > 0 && homogeneousReplicates.length) {
+    const h = kernel.homogeneous;
+    const hNorm = Math.sqrt(h.reduce((s, v) => s + v * v, 0));
+    const hmu = new Float64Array(h.length);
+    for (const r of homogeneousReplicates) for (let i = 0; i < h.length; i++) hmu[i] += r[i]! / homogeneousReplicates.length;
+    let hdev = 0;
+    for (const r of homogeneousReplicates) hdev += Math.sqrt(r.reduce((s, v, i) => s + (v - hmu[i]!) ** 2, 0)) / (hNorm || 1);
+    hdev /= homogeneousReplicates.length;
+    const hextra = predictedHomErr * predictedHomErr - hdev * hdev;
+    if (hextra > 0 && hNorm > 0) {
+      // smooth perturbation: a random combination of the kernel's leading output vectors
+      const hamp = Math.sqrt(hextra) * hNorm / Math.sqrt(k);
+      homogeneousReplicates = homogeneousReplicates.map((r) => {
+        const out = new Float64Array(r);
+        const z = Array.from({ length: k }, () => rng.normal());
+        for (let i = 0; i < out.length && i < U.rows; i++) {
+          let s = 0;
+          for (let a = 0; a < k; a++) s += U.data[i * k + a]! * z[a]!;
+          out[i] += hamp * s;
+        }
+        return out;
+      });
+    }
+  }
+  return {
+    ...noise,
+    replicates,
+    homogeneousReplicates,
+    assumption: `${noise.assumption} The resampled kernels varied less (${dev.toExponential(2)} relative) than the fit's predicted error ` +
+      `(${predictedRelErr.toExponential(2)}), which at low noise is mostly bias; each replicate was given an extra error of the predicted size ` +
+      `in the span of the kernel's leading modes, so that no verdict rests on a difference smaller than the fit can resolve.`,
+  };
+}
+
+/** Leading k left/right singular vectors by subspace iteration (Halko, Martinsson & Tropp, SIAM Review 2011). */
+function leadingSingularVectors(G: Mat, k: number, rng: Rng): { U: Mat; V: Mat } {
+  const m = G.rows, n = G.cols;
+  let Q = orthonormal({ rows: m, cols: k, data: Float64Array.from({ length: m * k }, () => rng.normal()) });
+  let P: Mat = { rows: n, cols: k, data: new Float64Array(n * k) };
+  for (let it = 0; it < 4; it++) {
+    P = orthonormal(mulT(G, Q));   // Gᵀ Q
+    Q = orthonormal(mul(G, P));    // G P
+  }
+  return { U: Q, V: P };
+}
+
+function mul(A: Mat, B: Mat): Mat {
+  const out = new Float64Array(A.rows * B.cols);
+  for (let i = 0; i < A.rows; i++) for (let l = 0; l < A.cols; l++) {
+    const a = A.data[i * A.cols + l]!;
+    if (a === 0) continue;
+    for (let j = 0; j < B.cols; j++) out[i * B.cols + j] += a * B.data[l * B.cols + j]!;
+  }
+  return { rows: A.rows, cols: B.cols, data: out };
+}
+
+function mulT(A: Mat, B: Mat): Mat {
+  const out = new Float64Array(A.cols * B.cols);
+  for (let l = 0; l < A.rows; l++) for (let i = 0; i < A.cols; i++) {
+    const a = A.data[l * A.cols + i]!;
+    if (a === 0) continue;
+    for (let j = 0; j < B.cols; j++) out[i * B.cols + j] += a * B.data[l * B.cols + j]!;
+  }
+  return { rows: A.cols, cols: B.cols, data: out };
+}
+
+/** Modified Gram–Schmidt on the columns (twice, for stability). */
+function orthonormal(A: Mat): Mat {
+  const { rows, cols } = A;
+  const d = new Float64Array(A.data);
+  for (let pass = 0; pass < 2; pass++) {
+    for (let j = 0; j < cols; j++) {
+      for (let p = 0; p < j; p++) {
+        let s = 0;
+        for (let i = 0; i < rows; i++) s += d[i * cols + p]! * d[i * cols + j]!;
+        for (let i = 0; i < rows; i++) d[i * cols + j] -= s * d[i * cols + p]!;
+      }
+      let nrm = 0;
+      for (let i = 0; i < rows; i++) nrm += d[i * cols + j]! ** 2;
+      nrm = Math.sqrt(nrm) || 1;
+      for (let i = 0; i < rows; i++) d[i * cols + j] /= nrm;
+    }
+  }
+  return { rows, cols, data: d };
+}
