@@ -93,8 +93,8 @@ export interface CoreFit {
   constraint: Constraint;
   /** false when the path itself can only identify G on the forcings' span */
   complete: boolean;
-  /** estimated absolute (Frobenius) truncation error of the model size, added to the bootstrap spread */
-  truncationError?: number;
+  /** estimated absolute (Frobenius) truncation error of the model size, already carried by the replicates */
+  truncationInReplicates?: number;
   /** input-side degrees of freedom of the model (the data must excite at least this many directions) */
   inputDof: number;
 }

@@ -62,8 +62,7 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
   const normG = frobenius(core.G);
   let spread = 0;
   for (const Gr of core.replicates) { const d = relativeError(Gr, core.G); spread += d * d; }
-  const trunc = (core.truncationError ?? 0) / Math.max(normG, 1e-300);
-  const predG = core.replicates.length ? Math.sqrt(spread / core.replicates.length + trunc * trunc) : NaN;
+  const predG = core.replicates.length ? Math.sqrt(spread / core.replicates.length) : NaN;
   let normUh = 0;
   for (const v of core.uh) normUh += v * v;
   normUh = Math.sqrt(normUh);
@@ -114,7 +113,7 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
     uncertainty: {
       relative_kernel_error: predG,
       relative_homogeneous_error: predUh,
-      method: `parametric bootstrap: ${core.replicates.length} refits with fixed hyper-parameters to Ĝ W f + û_h + N(0, σ²) noise; spread about the fit (variance and shrinkage bias), plus the basis-size truncation error extrapolated from the fits at the two next smaller sizes`,
+      method: `parametric bootstrap: ${core.replicates.length} refits with fixed hyper-parameters to Ĝ W f + û_h + N(0, σ²) noise; spread about the fit (variance and shrinkage bias; in 1-D each replicate also carries a random multiple of the basis-size truncation error, extrapolated from the fits at the two next smaller sizes)`,
       replicates: core.replicates.length,
     },
     coverage: {

@@ -146,6 +146,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   // sizes K' > K'' give d1 = ‖Ĝ_K − Ĝ_K'‖, d2 = ‖Ĝ_K' − Ĝ_K''‖; if they converge (d1 < d2), geometric
   // convergence extrapolates the error at K to d1 (d1/d2)^((K − K')/(K' − K'')) (Richardson-type estimate).
   let trunc2 = 0;
+  const truncDirs: { p: number; D: Mat; scale: number }[] = [];
   fits.forEach((f, p) => {
     const smaller = choices[p]!.tried.filter((t) => t.K < f.K && t.order === f.order).sort((a, b) => b.K - a.K);
     if (smaller.length < 2) return;
@@ -158,7 +159,13 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     let d1 = 0, d2 = 0;
     for (let u = 0; u < G0.data.length; u++) { d1 += (G0.data[u]! - G1.data[u]!) ** 2; d2 += (G1.data[u]! - G2.data[u]!) ** 2; }
     d1 = Math.sqrt(d1); d2 = Math.sqrt(d2);
-    if (d1 < d2 && d2 > 0) trunc2 += (d1 * Math.pow(d1 / d2, (f.K - t1.K) / (t1.K - t2.K))) ** 2;
+    if (d1 < d2 && d2 > 0 && d1 > 0) {
+      const e = d1 * Math.pow(d1 / d2, (f.K - t1.K) / (t1.K - t2.K));
+      trunc2 += e * e;
+      const D = zeros(G0.rows, G0.cols);
+      for (let u = 0; u < D.data.length; u++) D.data[u] = G0.data[u]! - G1.data[u]!;
+      truncDirs.push({ p, D, scale: e / d1 });
+    }
   });
   const repG: Mat[] = [], repUh: Float64Array[] = [];
   const th = new Float64Array(F);
@@ -178,6 +185,13 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     });
     const Gr = zeros(G.rows, G.cols);
     for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr);
+    // model-size uncertainty: ± e_K / d1 times the difference to the next smaller size (antithetic signs,
+    // so the second moment is exact), so that the replicates' spread also carries the truncation error
+    for (const td of truncDirs) {
+      const xi = (r % 2 === 0 ? 1 : -1) * td.scale;
+      const off = td.p * prep.nOut * Gr.cols;
+      for (let u = 0; u < td.D.data.length; u++) Gr.data[off + u] += xi * td.D.data[u]!;
+    }
     repG.push(Gr);
     const u = new Float64Array(colsOut);
     for (let p = 0; p < prep.cOut; p++) for (let i = 0; i < prep.nOut; i++) {
@@ -275,7 +289,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     sigma: Math.sqrt(sigma2.reduce((a, b, p) => a + b * systems[p]!.nObs, 0) / nObs),
     replicates: repG, homogeneousReplicates: repUh, scaling, notes, constraint,
     complete: true,
-    truncationError: Math.sqrt(trunc2),
+    truncationInReplicates: Math.sqrt(trunc2),
     inputDof: Math.max(...fits.map((f) => 2 * f.K * prep.cIn)),
   };
 }
