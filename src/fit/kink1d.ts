@@ -279,12 +279,15 @@ export function symmetricMap(Kmax: number, K: number): ParamMap {
   return { size: e, theta: Int32Array.from(th), eta: Int32Array.from(et), sign: Float64Array.from(sg) };
 }
 
-/** Penalty weight of coefficient (a, b): ((1 + a)(1 + b))^order — a smoothness prior on A and B. */
-export function penaltyWeights(Kmax: number, cIn: number, order: number): Float64Array {
+/**
+ * Penalty weight of coefficient (a, b): ((1 + a)(1 + b))^order — a smoothness prior on A and B — times
+ * `jump` for the D (sign) part: the relative prior size of the jump part is a hyper-parameter (GCV).
+ */
+export function penaltyWeights(Kmax: number, cIn: number, order: number, jump = 1): Float64Array {
   const F = 2 * Kmax * cIn;
   const w = new Float64Array(Kmax * F);
   for (let a = 0; a < Kmax; a++) for (let q = 0; q < cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < Kmax; b++) {
-    w[kinkIndex(Kmax, cIn, a, q, part, b)] = Math.pow((1 + a) * (1 + b), order);
+    w[kinkIndex(Kmax, cIn, a, q, part, b)] = Math.pow((1 + a) * (1 + b), order) * (part ? jump : 1);
   }
   return w;
 }
@@ -307,9 +310,11 @@ export function reduceSystem(sys: NormalSystem, Pfull: Float64Array, map: ParamM
 export interface KinkChoice {
   K: number;
   order: number;
+  /** penalty factor of the jump (D) part */
+  jump?: number;
   gcv: GcvPoint;
   /** GCV path over the candidates tried */
-  tried: { K: number; order: number; gcv: number; lambda: number; dof: number }[];
+  tried: { K: number; order: number; gcv: number; lambda: number; dof: number; jump?: number }[];
 }
 
 /** Candidate basis sizes (nested Legendre bases), in increasing order. */
@@ -340,12 +345,22 @@ export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constra
       prev = g.gcv;
     }
   }
+  // the relative prior size of the jump part, at the chosen size: factors 1/10, 1, 10 by GCV
+  const b0 = best!;
+  const map = constraint === 'symmetric' ? symmetricMap(Kmax, b0.K) : unconstrainedMap(Kmax, cIn, b0.K);
+  for (const jump of [0.1, 10]) {
+    const red = reduceSystem(sys, penaltyWeights(Kmax, cIn, b0.order, jump), map);
+    const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
+    tried.push({ K: b0.K, order: b0.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof, jump });
+    if (g.gcv < best!.gcv.gcv) best = { K: b0.K, order: b0.order, jump, gcv: g, tried };
+  }
   return best!;
 }
 
 export interface KinkFit {
   K: number;
   order: number;
+  jump: number;
   lambda: number;
   constraint: Constraint;
   map: ParamMap;
@@ -358,12 +373,12 @@ export interface KinkFit {
 }
 
 export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: KinkChoice, constraint: Constraint): KinkFit {
-  const Pfull = penaltyWeights(Kf, cIn, choice.order);
+  const Pfull = penaltyWeights(Kf, cIn, choice.order, choice.jump ?? 1);
   const map = constraint === 'symmetric' ? symmetricMap(Kf, choice.K) : unconstrainedMap(Kf, cIn, choice.K);
   const red = reduceSystem(sys, Pfull, map);
   const solver = new RidgeSolver(red.sys, red.P, choice.gcv.lambda);
   const eta = solver.solveVec(red.sys.r);
-  return { K: choice.K, order: choice.order, lambda: choice.gcv.lambda, constraint, map, solver, eta, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
+  return { K: choice.K, order: choice.order, jump: choice.jump ?? 1, lambda: choice.gcv.lambda, constraint, map, solver, eta, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
 }
 
 export function expand(map: ParamMap, eta: Float64Array, P: number): Float64Array {

@@ -46,7 +46,7 @@ function solveAtChosenSize(setup: KinkSetup, prep: Prepared, p: number, f: KinkF
   const K = f.K;
   const sys = assembleFull(setup, prep, p, K, leaveOut);
   const map = f.constraint === 'symmetric' ? symmetricMap(K, K) : unconstrainedMap(K, prep.cIn, K);
-  const red = reduceSystem(sys, penaltyWeights(K, prep.cIn, f.order), map);
+  const red = reduceSystem(sys, penaltyWeights(K, prep.cIn, f.order, f.jump), map);
   const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sys.nObs) / Math.max(1, nObsAll));
   const eta = solver.solveVec(red.sys.r);
   let quad = 0, lin = 0;
@@ -148,7 +148,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   let trunc2 = 0;
   const truncDirs: { p: number; D: Mat; scale: number }[] = [];
   fits.forEach((f, p) => {
-    const smaller = choices[p]!.tried.filter((t) => t.K < f.K && t.order === f.order).sort((a, b) => b.K - a.K);
+    const smaller = choices[p]!.tried.filter((t) => t.K < f.K && t.order === f.order && t.jump === undefined).sort((a, b) => b.K - a.K);
     if (smaller.length < 2) return;
     const [t1, t2] = smaller as [typeof smaller[0], typeof smaller[0]];
     const sysP = systems[p]!;
@@ -271,7 +271,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
 
   const f0 = fits[0]!;
   const hyper: Record<string, number | string | boolean> = {
-    basis: 'legendre', basis_size: f0.K, penalty_order: f0.order, constraint, max_basis_size: Kf,
+    basis: 'legendre', basis_size: f0.K, penalty_order: f0.order, jump_penalty_factor: f0.jump, constraint, max_basis_size: Kf,
   };
   fits.forEach((f, p) => {
     const sfx = prep.cOut > 1 ? `_${p + 1}` : '';
