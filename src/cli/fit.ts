@@ -15,7 +15,7 @@ export const registerFit: Register = (program, io) => {
     .requiredOption('--out <dir>', 'output folder')
     .option('--seed <n>', 'seed for the resampling (default 0)')
     .option('--assume <constraint>', 'structure the user knows: none | symmetric (refit under self-adjointness)')
-    .option('--replicates <n>', 'number of bootstrap replicates (default 30; 20 for large studies)')
+    .option('--replicates <n>', 'number of bootstrap replicates (default 20)')
     .option('--quiet', 'no progress on stderr')
     .option('--json', 'print a summary of fit.json on stdout')
     .action(async (dir: string, o: Opts) => {

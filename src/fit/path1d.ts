@@ -24,7 +24,7 @@ const PENALTY_ORDER = 2;
 
 export function maxBasisSize(prep: Prepared): number {
   // enough for kernels with a boundary layer ~1/20 of the interval; never more than the points support
-  return Math.max(3, Math.min(16, Math.floor(prep.nIn / 3), Math.floor(prep.nOut / 3)));
+  return Math.max(3, Math.min(14, Math.floor(prep.nIn / 3), Math.floor(prep.nOut / 3)));
 }
 
 function homogeneousOf(prep: Prepared, setup: KinkSetup, thetas: Float64Array[], out: Float64Array): void {
