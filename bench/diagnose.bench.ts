@@ -1,0 +1,56 @@
+/**
+ * The whole diagnosis (every registered analysis + hypotheses) on kernels fitted by the real
+ * pipeline from simulated studies, against issue 4's budgets: 200-point kernel < 2 s,
+ * 1,000 points < 20 s, 2-D 576 points < 10 s (CPU seconds; the fit itself is not counted).
+ */
+import { cpuSeconds, row, peakRssMb } from './util.js';
+import { parseOperator, simulateStudy } from '../src/simulate/index.js';
+import { fitStudy } from '../src/fit/index.js';
+import { diagnose } from '../src/diagnose.js';
+import type { Mat } from '../src/linalg/dense.js';
+
+function grid1d(n: number): Mat {
+  return { rows: n, cols: 1, data: Float64Array.from({ length: n }, (_, i) => i / (n - 1)) };
+}
+
+function grid2dInterior(m: number): Mat {
+  const data = new Float64Array(2 * m * m);
+  let k = 0;
+  for (let j = 0; j < m; j++) for (let i = 0; i < m; i++) { data[k++] = (i + 1) / (m + 1); data[k++] = (j + 1) / (m + 1); }
+  return { rows: m * m, cols: 2, data };
+}
+
+export async function run(): Promise<boolean> {
+  const cases = [
+    { name: '1-D 200, −0.05u″ + u′', spec: 'a=0.05; b=1', points: grid1d(200), count: 100, ls: 0.03, target: 2 },
+    { name: '1-D 1000, −u″', spec: 'a=1', points: grid1d(1000), count: 300, ls: 0.03, target: 20 },
+    { name: '2-D 576, −Δu on the square', spec: 'domain=box(0,1,0,1)', points: grid2dInterior(24), count: 150, ls: 0.1, target: 10 },
+  ];
+  const widths = [30, 10, 10, 8, 50];
+  console.log(row(['case (noise 0.01)', 'cpu s', 'target s', 'ratio', 'slowest analyses'], widths));
+  let ok = true;
+  for (const c of cases) {
+    const { study } = simulateStudy(parseOperator(c.spec), { pointsIn: c.points, count: c.count, noise: 0.01, seed: 3, lengthScale: c.ls });
+    const fit = fitStudy(study, { seed: 3 });
+    const times: Record<string, number> = {};
+    let last = process.cpuUsage();
+    let lastKey = '';
+    const tick = (msg: string) => {
+      const now = process.cpuUsage(last);
+      if (lastKey) times[lastKey] = (now.user + now.system) / 1e6;
+      last = process.cpuUsage();
+      lastKey = msg.replace(/^analysis: /, '');
+    };
+    const r = cpuSeconds(() => diagnose({ kernel: fit.kernel, noise: fit.noise, fit: fit.report, inputs: [] }, {
+      seed: 3, progress: tick,
+      audit: { command: [], options: {}, seed: 3, started: '', seconds: 0, platform: { node: '', os: '', arch: '' }, rerun: '' },
+    }));
+    tick('end');
+    const slow = Object.entries(times).sort((a, b) => b[1] - a[1]).slice(0, 3).map(([k, v]) => `${k} ${v.toFixed(2)}`).join(', ');
+    const met = r.cpu < c.target;
+    ok &&= met;
+    console.log(row([c.name, r.cpu, c.target, r.cpu / c.target, slow + (met ? '' : '  MISSED')], widths));
+  }
+  console.log(`peak RSS ${peakRssMb().toFixed(0)} MB`);
+  return ok;
+}
