@@ -19,6 +19,8 @@ export const DEMO_EXAMPLE = 'conveyor-oven';
 export interface Scenario {
   title: string; operator: string; grid: string; sensor_grid?: string;
   count: number; noise: number; seed: number; length_scale?: number;
+  /** per-experiment forcing amplitude range [lo, hi] (simulator default [1, 1]) */
+  amplitudes?: [number, number];
   units?: { x?: string; f?: string; u?: string };
 }
 
@@ -42,6 +44,7 @@ export async function makeExampleStudy(name: string, studyDir: string): Promise<
   const { study } = sim.simulateStudy(op, {
     pointsIn: parseGrid(sc.grid), pointsOut: sc.sensor_grid ? parseGrid(sc.sensor_grid) : undefined,
     count: sc.count, noise: sc.noise, seed: sc.seed, lengthScale: sc.length_scale, title: sc.title,
+    amplitudes: sc.amplitudes,
   });
   study.title = sc.title;
   if (sc.units) study.units = sc.units;

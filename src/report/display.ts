@@ -1,11 +1,9 @@
 /**
  * Display-side reductions of a kernel: pick at most ~60 × 60 entries for a heat map, split
- * into symmetric and antisymmetric parts, singular values of the weighted operator for the
- * decay plot, and 2-D slices binned onto a grid. Pure functions over typed arrays.
+ * into symmetric and antisymmetric parts, and 2-D slices binned onto a grid. Pure functions over typed arrays.
  */
 import type { Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { singularValues } from '../linalg/decomp.js';
 
 /** Evenly spread indices 0 … n−1 (both ends kept), at most `max` of them. */
 export function spreadIndices(n: number, max: number): number[] {
@@ -56,49 +54,6 @@ export function symParts(G: Mat): { sym: Mat; anti: Mat } {
     a[i * n + j] = 0.5 * (x - y);
   }
   return { sym: { rows: n, cols: n, data: s }, anti: { rows: n, cols: n, data: a } };
-}
-
-/**
- * Singular values of the weighted operator W_out^{1/2} G W_in^{1/2}, which approximate those
- * of the integral operator (Nyström method; e.g. Atkinson, The Numerical Solution of Integral
- * Equations of the Second Kind, 1997, ch. 4). Large kernels are thinned to at most `maxPoints`
- * points per side first (every stride-th point; each keeps the weights of the points it stands for), which keeps the leading
- * values and costs a bounded time. For scalar kernels with coinciding points only.
- */
-export function weightedSingularValues(k: Kernel, maxPoints = 160): Float64Array | null {
-  if (!samePoints(k) || k.components.in !== 1) return null;
-  const n = k.pointsIn.rows;
-  // a uniform integer stride: uneven thinning of a kinked kernel puts steps into the spectrum
-  const stride = Math.ceil(n / maxPoints);
-  const idx = Array.from({ length: Math.ceil(n / stride) }, (_, t) => t * stride);
-  const m = idx.length;
-  // weights of the thinned grid: sum the original weights over each index's share
-  const w = new Float64Array(m);
-  for (let t = 0; t < m; t++) {
-    const lo = t === 0 ? 0 : Math.floor((idx[t - 1]! + idx[t]!) / 2) + 1;
-    const hi = t === m - 1 ? n - 1 : Math.floor((idx[t]! + idx[t + 1]!) / 2);
-    let s = 0;
-    for (let i = lo; i <= hi; i++) s += k.weightsIn[i]!;
-    w[t] = s;
-  }
-  const data = new Float64Array(m * m);
-  for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) {
-    data[a * m + b] = Math.sqrt(w[a]!) * k.G.data[idx[a]! * k.G.cols + idx[b]!]! * Math.sqrt(w[b]!);
-  }
-  for (const v of data) if (!Number.isFinite(v)) return null;
-  return singularValues({ rows: m, cols: m, data });
-}
-
-/** Least-squares constant C in log σ_k ≈ log C − p log k for a given exponent p. */
-export function decayLine(sv: ArrayLike<number>, p: number, kmin = 1, kmax = sv.length): { k: number[]; sigma: number[] } {
-  let s = 0, c = 0;
-  for (let k = kmin; k <= kmax; k++) {
-    const v = sv[k - 1]!;
-    if (v > 0) { s += Math.log(v) + p * Math.log(k); c++; }
-  }
-  if (c === 0) return { k: [], sigma: [] };
-  const logC = s / c;
-  return { k: [kmin, kmax], sigma: [Math.exp(logC - p * Math.log(kmin)), Math.exp(logC - p * Math.log(kmax))] };
 }
 
 /**

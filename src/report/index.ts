@@ -5,7 +5,8 @@
  *   - the kernel folder: findings.kernel_dir, or findings.kernel.dir / findings.kernel.path
  *     (relative to DIR), else DIR/kernel/ when it holds kernel.json, else DIR itself when it
  *     holds kernel.json; without a kernel the dossier is made from the findings alone.
- *   - the study title and units from findings.study.{title, units} (or findings.title/units).
+ *   - the study title and units from findings.study.{title, units} (or findings.title/units);
+ *   - the kernel folder's fit.json (kernel.json "fit"), for the predicted error of u_h.
  * Everything but the generation time (and the times the findings carry) is a deterministic
  * function of those files.
  */
@@ -35,7 +36,11 @@ export interface DossierOptions {
   generated?: string;
 }
 
-export interface LoadedFindings { findings: Findings; kernel: Kernel | null; kernelDir: string | null; files: InputFile[] }
+export interface LoadedFindings {
+  findings: Findings; kernel: Kernel | null; kernelDir: string | null; files: InputFile[];
+  /** the fit's predicted relative error of u_h, from the kernel folder's fit.json (null when absent) */
+  homogeneousError: number | null;
+}
 
 /** Read and check DIR/findings.json and locate its kernel (boundary validation: exit 3 on bad input). */
 export function loadFindings(dirArg: string): LoadedFindings {
@@ -74,12 +79,27 @@ export function loadFindings(dirArg: string): LoadedFindings {
   } else if (isKernelDir(join(dir, 'kernel'))) kernelDir = join(dir, 'kernel');
   else if (isKernelDir(dir)) kernelDir = dir;
   let kernel: Kernel | null = null;
+  let homogeneousError: number | null = null;
   if (kernelDir) {
     kernel = readKernel(kernelDir);
     const rel = relative(dir, kernelDir);
     for (const f of kernel.files ?? []) files.push({ path: rel ? `${rel}/${f.path}` : f.path, sha256: f.sha256 });
+    homogeneousError = fitHomogeneousError(kernelDir);
   }
-  return { findings: F, kernel, kernelDir, files };
+  return { findings: F, kernel, kernelDir, files, homogeneousError };
+}
+
+/** uncertainty.relative_homogeneous_error of the kernel folder's fit report (kernel.json "fit"), when there is one. */
+function fitHomogeneousError(kernelDir: string): number | null {
+  try {
+    const manifest = JSON.parse(readFileSync(join(kernelDir, 'kernel.json'), 'utf8')) as { fit?: unknown };
+    if (typeof manifest.fit !== 'string') return null;
+    const p = join(kernelDir, manifest.fit);
+    if (!existsSync(p)) return null;
+    const fit = JSON.parse(readFileSync(p, 'utf8')) as { uncertainty?: { relative_homogeneous_error?: unknown } };
+    const v = fit.uncertainty?.relative_homogeneous_error;
+    return typeof v === 'number' && Number.isFinite(v) && v >= 0 ? v : null;
+  } catch { return null; }
 }
 
 /**
@@ -118,9 +138,9 @@ export async function renderFigures(model: DossierModel): Promise<{ svg: Map<str
 }
 
 /** The dossier's two documents in memory (no file system). */
-export async function renderDossier(findings: Findings, kernel: Kernel | null, files: InputFile[], opts: { rebuild: string; generated: string }):
+export async function renderDossier(findings: Findings, kernel: Kernel | null, files: InputFile[], opts: { rebuild: string; generated: string; homogeneousError?: number | null }):
   Promise<{ html: string; pdf: Buffer; model: DossierModel }> {
-  const model = buildModel({ findings, kernel, dossierInputs: files, rebuild: opts.rebuild, generated: opts.generated });
+  const model = buildModel({ findings, kernel, dossierInputs: files, rebuild: opts.rebuild, generated: opts.generated, homogeneousError: opts.homogeneousError ?? null });
   const svgs = await renderFigures(model);
   const html = renderHtml(model, svgs.svg);
   const pdf = await renderPdf(model, svgs);
@@ -143,7 +163,7 @@ export async function buildDossier(dir: string, opts: DossierOptions = {}): Prom
   progress.say(`read findings${loaded.kernelDir ? ' and kernel' : ' (no kernel folder found: figures of the kernel are left out)'}`);
   const rebuild = `kerneldx report ${shellQuote(relative(process.cwd(), finalDir(resolve(dir))) || '.')}`;
   const generated = opts.generated ?? new Date().toISOString();
-  const { html, pdf } = await renderDossier(loaded.findings, loaded.kernel, loaded.files, { rebuild, generated });
+  const { html, pdf } = await renderDossier(loaded.findings, loaded.kernel, loaded.files, { rebuild, generated, homogeneousError: loaded.homogeneousError });
   progress.say(`rendered dossier (HTML ${(html.length / 1e6).toFixed(2)} MB, PDF ${(pdf.length / 1e6).toFixed(2)} MB)`);
   await withOutput(dir, (stage) => {
     stage.write('dossier.html', html);

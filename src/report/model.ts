@@ -7,8 +7,9 @@
 import type { Findings, Kernel, InputFile } from '../types.js';
 import { fmt, pct, CAUTION, CAUTION_TITLE, INTRO, ANALYSES } from './text.js';
 import {
-  kernelFigures, homogeneousFigure, spectrumFigure, polesFigure, regionsFigure, coefficientFigures,
-  couplingFigure, sliceFigures, skewProfileFigure, diagonalsFigure, evidenceFigure, type Figure, type Labels,
+  kernelFigures, homogeneousFigure, spectrumFigure, polesFigure, regionsFigure, interfacesFigure, coefficientFigures,
+  couplingFigure, sliceFigures, adjointFigures, transportFigures, translationFigures, localityFigure, columnFigures,
+  type Figure, type Labels, type SectionFigures,
 } from './figures.js';
 
 export interface FigureRef extends Figure { number: number }
@@ -23,6 +24,8 @@ export interface AnalysisSection {
   details: KeyValue[];
   table: { head: string[]; rows: string[][] } | null;
   figures: FigureRef[];
+  /** why the section has no figure (null when it has one) */
+  figureNote: string | null;
 }
 
 export interface HypothesisView {
@@ -63,6 +66,8 @@ export interface ModelInput {
   rebuild: string;
   /** when the dossier was made (ISO); the only time-dependent field besides the audit's */
   generated: string;
+  /** the fit's predicted relative error of u_h (kernel/fit.json), for the u_h band */
+  homogeneousError?: number | null;
 }
 
 function studyInfo(F: Findings): { title: string | null; units: Record<string, unknown> } {
@@ -96,7 +101,12 @@ function verdictOf(key: string, v: unknown): string {
   const o = v as Record<string, unknown>;
   if (typeof o.verdict === 'string') return o.verdict;
   if (key === 'order') return o.estimate === null || o.estimate === undefined ? 'inconclusive' : `order ${o.estimate}`;
-  if (key === 'operator') return typeof o.expression === 'string' && o.expression ? 'expression found' : 'inconclusive';
+  if (key === 'operator') {
+    const e = typeof o.expression === 'string' ? o.expression : '';
+    if (!e || e.startsWith('not determined')) return 'inconclusive';
+    if (e.startsWith('not estimated')) return 'not-applicable';
+    return o.reliable === false ? 'tentative expression' : 'expression found';
+  }
   return '—';
 }
 
@@ -106,7 +116,10 @@ function details(v: unknown, skip: Set<string>): KeyValue[] {
   for (const [k, x] of Object.entries(v as Record<string, unknown>)) {
     if (skip.has(k)) continue;
     if (typeof x === 'number' || typeof x === 'string' || typeof x === 'boolean' || x === null) out.push({ label: k.replace(/_/g, ' '), value: typeof x === 'number' ? fmt(x, 4) : String(x ?? '—') });
+    else if (Array.isArray(x) && x.length === 0) out.push({ label: k.replace(/_/g, ' '), value: 'none' });
     else if (Array.isArray(x) && x.length <= 6 && x.every((e) => typeof e === 'number')) out.push({ label: k.replace(/_/g, ' '), value: `[${x.map((e) => fmt(e as number, 3)).join(', ')}]` });
+    else if (x && typeof x === 'object' && !Array.isArray(x) && Object.values(x).every((e) => e === null || ['number', 'string', 'boolean'].includes(typeof e)))
+      out.push({ label: k.replace(/_/g, ' '), value: Object.entries(x).map(([a, b]) => `${a.replace(/_/g, ' ')} ${typeof b === 'number' ? fmt(b, 3) : String(b ?? '—')}`).join(', ') });
   }
   return out;
 }
@@ -125,9 +138,15 @@ function tableOf(key: string, v: unknown): AnalysisSection['table'] {
     }
     if (key === 'operator' && v && typeof v === 'object' && Array.isArray((v as { terms?: unknown }).terms) && (v as { terms: unknown[] }).terms.length) {
       const t = (v as Findings['operator']).terms;
-      return { head: ['term', 'form', 'range of value'], rows: t.map((e) => {
-        const fin = (e.value ?? []).filter((z) => Number.isFinite(z));
-        return [String(e.name), String(e.form), fin.length ? `${fmt(Math.min(...fin))} … ${fmt(Math.max(...fin))}` : '—'];
+      const range = (a: number[] | undefined, lo: (x: number[]) => number, hi: (x: number[]) => number) => {
+        const fin = (a ?? []).filter((z) => Number.isFinite(z));
+        return fin.length === 0 ? '—' : fin.length === 1 ? fmt(fin[0]) : `${fmt(lo(fin))} … ${fmt(hi(fin))}`;
+      };
+      const ext = (a: number[] | undefined, f: (...v: number[]) => number) => { const fin = (a ?? []).filter((z) => Number.isFinite(z)); return fin.length ? fmt(f(...fin)) : '—'; };
+      return { head: ['term', 'form', 'estimate', 'band'], rows: t.map((e) => {
+        const one = (e.value ?? []).length === 1;
+        return [String(e.name), String(e.form), range(e.value, (a) => Math.min(...a), (a) => Math.max(...a)),
+          one ? `${fmt(e.lower?.[0])} … ${fmt(e.upper?.[0])}` : `${ext(e.lower, Math.min)} … ${ext(e.upper, Math.max)} (widest extent)`];
       }) };
     }
     return null;
@@ -151,7 +170,7 @@ export function buildModel(inp: ModelInput): DossierModel {
     figures.push(ref);
     return ref;
   };
-  const kf = k ? kernelFigures(k, L) : { main: [], sym: null, anti: null };
+  const kf = k ? kernelFigures(k, L) : { main: [], sym: null };
   const record = F as unknown as Record<string, unknown>;
 
   const sections: AnalysisSection[] = [];
@@ -159,21 +178,24 @@ export function buildModel(inp: ModelInput): DossierModel {
     if (!(a.key in record) && !F.evidence?.[a.key]) continue;
     const v = record[a.key];
     const ev = F.evidence?.[a.key];
-    const figs: (Figure | null)[] = [];
+    let sf: SectionFigures;
     switch (a.key) {
-      case 'self_adjoint': figs.push(kf.anti); break;
-      case 'transport': if (k) figs.push(skewProfileFigure(k, L)); break;
-      case 'translation_invariant': if (k) figs.push(diagonalsFigure(k, L)); break;
-      case 'order': if (k) figs.push(spectrumFigure(k, F)); break;
-      case 'oscillation': if (k && k.dimension === 1 && k.components.in === 1) figs.push(...sliceFigures(k, L)); break;
-      case 'screening': if (k && k.dimension === 1 && k.components.in === 1) figs.push(...sliceFigures(k, L, { logAbs: true })); break;
-      case 'singularities': figs.push(polesFigure(F, domain, L)); break;
-      case 'interfaces': figs.push(regionsFigure(F, domain, L)); break;
-      case 'operator': figs.push(...coefficientFigures(F, L)); break;
-      case 'coupling': figs.push(couplingFigure(F)); break;
-      default: break;
+      case 'self_adjoint': sf = adjointFigures(F, k, L); break;
+      case 'transport': sf = transportFigures(F, L); break;
+      case 'translation_invariant': sf = translationFigures(F, L); break;
+      case 'order': sf = spectrumFigure(F); break;
+      case 'locality': sf = localityFigure(F); break;
+      case 'oscillation': sf = columnFigures(F, k, L, 'oscillation'); break;
+      case 'screening': sf = columnFigures(F, k, L, 'screening'); break;
+      case 'singularities': sf = polesFigure(F, domain, L); break;
+      case 'interfaces': sf = interfacesFigure(F, domain, L); break;
+      case 'regions': sf = regionsFigure(F, domain, L); break;
+      case 'operator': sf = coefficientFigures(F, L); break;
+      case 'coupling': sf = couplingFigure(F); break;
+      case 'linearity': sf = { figures: [], note: 'The linearity test is summarised by the numbers above (the fit ran it on the experiments); it has no figure.' }; break;
+      default: sf = { figures: [], note: 'This analysis has no figure in the dossier.' };
     }
-    if (!figs.some(Boolean)) figs.push(evidenceFigure(a.key, F, L));
+    const figs: Figure[] = sf.figures;
     const refs = figs.map(add).filter((f): f is FigureRef => !!f);
     const verdict = verdictOf(a.key, v);
     const stat = ev?.statistic ?? null, floor = ev?.noise_floor ?? null;
@@ -181,12 +203,16 @@ export function buildModel(inp: ModelInput): DossierModel {
     sections.push({
       key: a.key, anchor: `an-${a.key.replace(/_/g, '-')}`, title: a.title,
       verdict, verdictClass: VERDICT_CLASS[verdict] ?? (verdict.startsWith('order') || verdict.endsWith('found') && verdict !== 'none found' ? 'positive' : 'neutral'),
-      statistic: fmt(stat, 4), noiseFloor: fmt(floor, 4), ratio: ratio === null ? '—' : `${fmt(ratio, 3)} ×`,
-      separated: ratio === null ? 'no floor to compare with' : ratio >= 2 ? 'clears the noise floor' : 'within the noise floor',
+      statistic: fmt(stat, 4), noiseFloor: fmt(floor, 4), ratio: ratio === null || a.key === 'order' || a.key === 'interfaces' ? '—' : `${fmt(ratio, 3)} ×`,
+      // the verdict itself comes from the analysis' own decision rule; this only reads the two numbers
+      separated: a.key === 'order' ? (stat === null ? 'no decay fitted' : 'decay exponent ± its bootstrap spread')
+        : a.key === 'interfaces' && stat !== null ? 'probability of a sharp change, against 0.5 (undecided)'
+        : ratio === null ? 'no floor to compare with' : ratio > 1 ? 'above the noise floor' : 'within the noise floor',
       summary: ev?.summary ?? '', explanation: ev?.explanation || a.fallback,
       details: details(v, new Set(['verdict', 'terms', 'matrix'])),
       table: tableOf(a.key, v),
       figures: refs,
+      figureNote: refs.length ? null : sf.note,
     });
   }
 
@@ -227,7 +253,7 @@ export function buildModel(inp: ModelInput): DossierModel {
 
   const kernelFigs: FigureRef[] = [];
   for (const f of [...kf.main, kf.sym]) { const r = add(f); if (r) kernelFigs.push(r); }
-  if (k) { const h = add(homogeneousFigure(k, F, L)); if (h) kernelFigs.push(h); }
+  if (k) { const h = add(homogeneousFigure(k, inp.homogeneousError ?? null, L)); if (h) kernelFigs.push(h); }
   if (k && k.dimension === 2 && k.components.in === 1) for (const f of sliceFigures(k, L)) { const r = add(f); if (r) kernelFigs.push(r); }
 
   const A = F.audit;

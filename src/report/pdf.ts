@@ -123,7 +123,8 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
         const ax = px(c.x0), bx = px(c.x1), ay = py(c.y1), by = py(c.y0);
         // a hair of overlap hides seams between cells in PDF viewers
         doc.rect(Math.min(ax, bx), Math.min(ay, by), Math.abs(bx - ax) + 0.15, Math.abs(by - ay) + 0.15).fill(rgb);
-        if (c.t) doc.font('body').fontSize(9).fillColor(C.ink).text(c.t, Math.min(ax, bx), (ay + by) / 2 - 5, { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
+        if (c.t) doc.font('body').fontSize(9).fillColor(C.ink).text(c.t, Math.min(ax, bx), (ay + by) / 2 - (c.t2 ? 9 : 5), { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
+        if (c.t2) doc.font('body').fontSize(6.5).fillColor(C.muted).text(c.t2, Math.min(ax, bx), (ay + by) / 2 + 3, { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
       }
       doc.rect(x + H.plot.x * sc, y + H.plot.y * sc, H.plot.width * sc, H.plot.height * sc).lineWidth(0.5).strokeColor(C.muted).stroke();
     } else {
@@ -193,6 +194,7 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
     if (s.table) table(s.table.head, s.table.rows);
     para(`What this measures. ${s.explanation}`, { size: 9.5 });
     for (const f of s.figures) figure(f);
+    if (s.figureNote) para(s.figureNote, { size: 9, color: C.muted });
   }
 
   // ---- data quality, caution

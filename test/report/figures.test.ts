@@ -1,14 +1,19 @@
 /**
- * The numbers the dossier draws are the kernel's own numbers: heat-map entries, symmetric and
- * antisymmetric parts, and the singular values, checked against closed-form Green's functions
- * and their known spectra (shared/references/greens-functions.md).
+ * The numbers the dossier draws are the kernel's and the analyses' own numbers: heat-map
+ * entries, symmetric and antisymmetric parts, and the order analysis' singular values drawn by
+ * the spectrum figure, checked against closed-form Green's functions and their known spectra
+ * (shared/references/greens-functions.md).
  */
 import { describe, it, expect } from 'vitest';
 import * as vega from 'vega';
-import { heatGrid, symParts, weightedSingularValues, decayLine, spreadIndices } from '../../src/report/display.js';
+import { heatGrid, symParts, spreadIndices } from '../../src/report/display.js';
+import { spectrumFigure, polesFigure, interfacesFigure, couplingFigure } from '../../src/report/figures.js';
+import { order } from '../../src/analyses/order.js';
+import { Rng } from '../../src/linalg/rng.js';
+import type { Findings } from '../../src/types.js';
 import { rampColor, DIVERGING } from '../../src/report/palette.js';
 import { fmt } from '../../src/report/text.js';
-import { kernel1d, advdiff, laplace, simplyBeam } from '../helpers/closedForms.js';
+import { kernel1d, advdiff, laplace, perturbedReplicates } from '../helpers/closedForms.js';
 
 describe('display reductions of a kernel', () => {
   // (d) −εu'' + bu', ε = 0.05, b = 1, Dirichlet — derived in the reference from (i); Duffy (from memory)
@@ -37,22 +42,29 @@ describe('display reductions of a kernel', () => {
     expect(worstS).toBeLessThan(1e-12);
   });
 
-  it('singular values of −u\'\' (Dirichlet) approach 1/(kπ)², also after thinning 600 → 200 points', () => {
+  it('the spectrum figure draws the order analysis\' singular values of −u\'\' (Dirichlet): 1/(kπ)², with its decay line', () => {
     // (a) eigenvalues 1/(kπ)² — Stakgold & Holst; Courant–Hilbert I (reference §4)
-    for (const n of [200, 600]) {
-      const sv = weightedSingularValues(kernel1d(laplace(1), n))!;
-      expect(sv.length).toBeLessThanOrEqual(160);
-      for (let q = 1; q <= 8; q++) expect(Math.abs(sv[q - 1]! * (q * Math.PI) ** 2 - 1)).toBeLessThan(0.01);
-      // the decay line with the Weyl exponent 2 has constant ≈ 1/π²
-      const line = decayLine(sv, 2, 1, 8);
-      expect(Math.abs(line.sigma[0]! * Math.PI ** 2 - 1)).toBeLessThan(0.01);
-    }
+    const k = kernel1d(laplace(1), 200);
+    const ctx = { noise: { replicates: perturbedReplicates(k.G, 0.001, 20, 5), homogeneousReplicates: [], source: 'bootstrap' as const, assumption: '' }, rng: new Rng(1), options: {}, results: {} };
+    const out = order.run(k, ctx as never);
+    const F = { order: out.finding, evidence: { order: out.evidence } } as unknown as Findings;
+    const fig = spectrumFigure(F).figures[0]!;
+    expect(fig).toBeDefined();
+    const d = fig.data as { k: number[]; sigma: number[]; fitted_line: { k: number[]; sigma: number[] } | null; trusted: number };
+    for (let q = 1; q <= 8; q++) expect(Math.abs(d.sigma[q - 1]! * (q * Math.PI) ** 2 - 1)).toBeLessThan(0.01);
+    expect(d.trusted).toBe(out.finding.trustworthy_values);
+    // the drawn decay line has the analysis' slope: log-ratio over its range = −exponent
+    const line = d.fitted_line!;
+    const slope = Math.log(line.sigma.at(-1)! / line.sigma[0]!) / Math.log(line.k.at(-1)! / line.k[0]!);
+    expect(Math.abs(slope + (out.finding.decay_exponent as number))).toBeLessThan(1e-3);
   });
 
-  it('singular values of the simply supported beam approach 1/(kπ)⁴', () => {
-    // (f2) u'''' simply supported: 1/(kπ)⁴ — Butkovskiy; Roark (from memory); reference §4 table
-    const sv = weightedSingularValues(kernel1d(simplyBeam, 200))!;
-    for (let q = 1; q <= 5; q++) expect(Math.abs(sv[q - 1]! * (q * Math.PI) ** 4 - 1)).toBeLessThan(0.01);
+  it('sections whose plot data are missing get a note, not a stand-in chart', () => {
+    const F = { order: { estimate: null, decay_exponent: null, confidence: 0 }, evidence: {}, singularities: [], interfaces: [], regions: [], dimension: 1, coupling: { verdict: 'not-applicable', matrix: null } } as unknown as Findings;
+    for (const s of [spectrumFigure(F), polesFigure(F, [0, 1], { x: 'm', u: 'K', f: 'W' }), interfacesFigure(F, [0, 1], { x: 'm', u: 'K', f: 'W' }), couplingFigure(F)]) {
+      expect(s.figures.length).toBe(0);
+      expect(s.note).toMatch(/\w{4,}/);
+    }
   });
 
   it('index spreading keeps both ends and never repeats', () => {

@@ -18,7 +18,10 @@ const squash = (s: string) => s.replace(/\s+/g, ' ').trim();
 describe.skipIf(!enabled)('PDF dossier through poppler', () => {
   let dir = '', pdf = '', text = '';
   beforeAll(async () => {
-    dir = await dossierDir();
+    // a caveat carrying the glyphs the embedded font must have (analyses write ′ ∂ ≈ ± ² Δ κ in their texts)
+    const F = fixtureFindings();
+    F.hypotheses[0]!.caveats = [...(F.hypotheses[0]!.caveats ?? []), 'Glyph check: u′, ∂G/∂x, κ ≈ 1.5 ± 0.1, k², Δu.'];
+    dir = await dossierDir({ findings: F });
     pdf = (await buildDossier(dir, { quiet: true })).pdf;
     text = execFileSync('pdftotext', ['-enc', 'UTF-8', pdf, '-'], { encoding: 'utf8' });
   });
