@@ -13,9 +13,10 @@
  * on a sub-interval, with bands), `coefficientProfiles(kernel, replicates, opts)`.
  */
 import type { Analysis, Context } from './analysis.js';
+import { normalCdf } from './analysis.js';
 import type { Kernel, Findings, OperatorTerm, Domain } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { quadratureWeights } from '../quadrature.js';
+import { quadratureWeights, tensorAxes } from '../quadrature.js';
 import { bump1d, adjointColumn1d, solveWeak, kinkFactors1d, type Param, type TermName, type WeakBlock, type WeakSolution } from './weakform.js';
 
 // ------------------------------------------------------------------ models
@@ -142,22 +143,71 @@ function defaultRadius(lo: number, hi: number, xOut: Float64Array): number {
   return Math.min(0.25 * (hi - lo), Math.max(0.12 * (hi - lo), 5 * maxSpacing(xOut)));
 }
 
-/** Band half-width: 2·√(sd² + se²) (≈ 95 % for a Gaussian error) plus the bump-size sensitivity. */
-function halfWidth(sd: number, se: number, sens: number): number {
-  return 2 * Math.sqrt(sd * sd + se * se) + sens;
+/**
+ * Quantile z with P(|Z| ≤ z) = 0.95^(1/m) for a standard normal Z: the multiplier of a band that
+ * covers m independent estimates at once with 95 % probability (Šidák, J. Amer. Statist. Assoc.
+ * 62, 1967). A profile is read as a whole ("the band covers the truth everywhere"), so its
+ * random part is a simultaneous band over the number of non-overlapping bumps it spans.
+ */
+export function simultaneousZ(m: number): number {
+  const p = 0.5 + 0.5 * 0.95 ** (1 / Math.max(1, m));
+  let lo = 0, hi = 10;
+  for (let it = 0; it < 60; it++) { const mid = 0.5 * (lo + hi); if (normalCdf(mid) < p) lo = mid; else hi = mid; }
+  return 0.5 * (lo + hi);
+}
+
+/** Band half-width: z·√(sd² + se²) (random part) plus the estimated systematic errors. */
+function halfWidth(sd: number, se: number, bias: number, z: number): number {
+  return z * Math.sqrt(sd * sd + se * se) + bias;
+}
+
+/** Ratio of the smaller to the main test-bump radius, used for the resolution-bias estimate. */
+const SHRINK = 0.7;
+
+/**
+ * Systematic error of an estimate θ at bump radius r from the same fit at radius 0.7 r: for
+ * coefficients smooth on the bump the locally-linear model's error grows like r², so
+ * θ(r) − θ* ≈ (θ(r) − θ(0.7 r)) / (1 − 0.7²) (Richardson's deferred approach to the limit;
+ * Richardson, Phil. Trans. R. Soc. A 226, 1927).
+ */
+function resolutionBias(theta: number, thetaSmall: number): number {
+  return Number.isFinite(thetaSmall) ? Math.abs(theta - thetaSmall) / (1 - SHRINK * SHRINK) : Math.abs(theta);
+}
+
+/**
+ * Trapezoid weights of the same output points using every other point only (two interleaved
+ * coarse rules, even and odd ranks; each keeps the end points). The change of the estimate
+ * between the fine and the coarse rules measures the quadrature error of the weak-form
+ * integrals (for an O(h²) rule the fine error is a third of the difference; we take the whole
+ * difference, the kink of G on the diagonal lowering the order).
+ */
+function coarseWeights1d(xOut: Float64Array): [Float64Array, Float64Array] {
+  const n = xOut.length;
+  const order = Array.from({ length: n }, (_, i) => i).sort((a, b) => xOut[a]! - xOut[b]!);
+  const mk = (parity: number): Float64Array => {
+    const keep = order.filter((_, r) => r % 2 === parity || r === 0 || r === n - 1);
+    const w = new Float64Array(n);
+    for (let q = 0; q + 1 < keep.length; q++) {
+      const i = keep[q]!, j = keep[q + 1]!;
+      const h = xOut[j]! - xOut[i]!;
+      w[i] += h / 2; w[j] += h / 2;
+    }
+    return w;
+  };
+  return [mk(0), mk(1)];
 }
 
 /**
  * The band [v − h, v + h]; when noise dominates the design (attenuation ρ ≥ ½, no correction
- * possible) least squares shrinks toward zero by up to (1 − ρ), so the side away from zero is
- * stretched by 1/(1 − ρ) (ρ capped at 0.95: a twenty-fold stretch says "not determined").
+ * possible) least squares shrinks toward zero by up to (1 − ρ) and even the sign is not
+ * secured, so the band is extended to zero and stretched by 1/(1 − ρ) (ρ capped at 0.95).
  */
 function band(v: number, h: number, sol: WeakSolution): [number, number] {
   if (!sol.unreliable) return [v - h, v + h];
-  // the sign itself is then uncertain: stretch both ends away from zero
+  // the sign itself is then uncertain: the band reaches zero and both ends stretch away from it
   const stretch = 1 / (1 - Math.min(sol.attenuation, 0.95));
-  const lo = v - h, hi = v + h;
-  return [lo < 0 ? lo * stretch : lo, hi > 0 ? hi * stretch : hi];
+  const lo = Math.min(v - h, 0), hi = Math.max(v + h, 0);
+  return [lo * stretch, hi * stretch];
 }
 
 /**
@@ -192,13 +242,53 @@ export function coefficientProfiles(kernel: Kernel, replicates: Mat[], opts: Pro
   return res;
 }
 
+/** One piece of a piecewise profile: its interval and bump radius. */
+export interface Segment { bounds: [number, number]; radius: number }
+
+/**
+ * Profiles fitted separately on each side of the given interfaces, so that no test bump
+ * straddles a sharp change of a coefficient (a locally linear model cannot follow a jump).
+ * Each piece keeps `margin[i]` away from the interface (its location uncertainty); pieces too
+ * narrow for a test bump resolvable on the grid are left out. Returns null when fewer than
+ * one piece is usable.
+ */
+export function piecewiseProfiles(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, cuts: number[], margins: number[]): (ProfileResult & { segments: Segment[] }) | null {
+  const xOut = kernel.pointsOut.data;
+  const [lo, hi] = interval(kernel.domain, kernel.pointsOut);
+  const order = cuts.map((c, i) => [c, margins[i] ?? 0] as const).filter(([c]) => c > lo && c < hi).sort((a, b) => a[0] - b[0]);
+  const edges: [number, number][] = [];
+  let left = lo;
+  for (const [c, m] of order) { edges.push([left, c - m]); left = c + m; }
+  edges.push([left, hi]);
+  const minWidth = 2 * 4 * maxSpacing(xOut);
+  const parts = edges.filter(([a, b]) => b - a >= minWidth).map((w) => coefficientProfiles(kernel, replicates, { ...opts, within: w }));
+  if (!parts.length) return null;
+  const merged: ProfileResult & { segments: Segment[] } = {
+    order: opts.order, radius: Math.min(...parts.map((q) => q.radius)),
+    centers: parts.flatMap((q) => q.centers),
+    terms: parts[0]!.terms.map((t) => ({ ...t, x: [], value: [], lower: [], upper: [], sd: [], se: [], sensitivity: [] })),
+    residual: parts.reduce((sum, q) => sum + q.residual, 0) / parts.length,
+    unreliableFraction: parts.reduce((sum, q) => sum + q.unreliableFraction * q.centers.length, 0) / Math.max(1, parts.reduce((sum, q) => sum + q.centers.length, 0)),
+    corrected: parts.some((q) => q.corrected),
+    segments: parts.map((q, i) => ({ bounds: edges.filter(([a, b]) => b - a >= minWidth)[i]!, radius: q.radius })),
+  };
+  for (const q of parts) {
+    for (const t of q.terms) {
+      const m = merged.terms.find((u) => u.name === t.name)!;
+      m.x.push(...t.x); m.value.push(...t.value); m.lower.push(...t.lower); m.upper.push(...t.upper);
+      m.sd.push(...t.sd); m.se.push(...t.se); m.sensitivity.push(...t.sensitivity);
+    }
+  }
+  return merged;
+}
+
 function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: number, probes: number | null): ProfileResult {
   const xOut = kernel.pointsOut.data, xIn = kernel.pointsIn.data;
   const wOut = quadratureWeights(kernel.pointsOut, kernel.domain);
   const wIn = kernel.weightsIn;
   const [dlo, dhi] = interval(kernel.domain, kernel.pointsOut);
   const [lo, hi] = opts.within ?? [dlo, dhi];
-  const r2 = 0.7 * r;
+  const r2 = SHRINK * r;
   const params = modelParams(opts.order, opts.advection, true);
   const P = params.length;
   const span = hi - lo - 2 * r;
@@ -209,11 +299,20 @@ function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: n
   const residuals: number[] = [];
   let unreliable = 0, corrected = false;
   const factors = opts.order === 2 ? kinkFactors1d(Float64Array.from(xOut).sort(), xIn) : null;
+  const [wEven, wOdd] = coarseWeights1d(xOut);
   const ia0 = params.findIndex((p) => p.term === 'diffusion' && p.degree === 0);
   const ia1 = params.findIndex((p) => p.term === 'diffusion' && p.degree === 1);
+  const z = simultaneousZ(Math.round((hi - lo) / (2 * r)));
+  const paramsQ: Param[] = [...params, { term: opts.order === 4 ? 'fourth-order' : 'diffusion', degree: 2 }];
   for (const x0 of centers) {
     const s1 = solveWeak(kernel.G, replicates, blocks1d(xOut, wOut, xIn, x0, r, params, opts.order), wIn, P);
     const s2 = solveWeak(kernel.G, [], blocks1d(xOut, wOut, xIn, x0, r2, params, opts.order), wIn, P);
+    const q0 = solveWeak(kernel.G, [], blocks1d(xOut, wEven, xIn, x0, r, params, opts.order), wIn, P);
+    const q1 = solveWeak(kernel.G, [], blocks1d(xOut, wOdd, xIn, x0, r, params, opts.order), wIn, P);
+    // model form: the same fit with a quadratic leading coefficient; where the coefficient
+    // curves across the bump the lower-order terms absorb the curvature (with no r² trend that
+    // the smaller bump would reveal), and this change shows it
+    const sm = solveWeak(kernel.G, [], blocks1d(xOut, wOut, xIn, x0, r, paramsQ, opts.order), wIn, P + 1);
     // the same fit with the trapezoid rule corrected for a sharp kink of G on its diagonal:
     // a fitted kernel's kink is smeared and needs no correction, an exact one does; the
     // truth lies between, so the difference joins the band
@@ -228,10 +327,13 @@ function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: n
     for (const t of terms) {
       const j = params.findIndex((p) => p.term === t.name && p.degree === 0);
       const v = s1.theta[j]!, sd = s1.sd[j]!, se = s1.se[j]!;
-      const sens = (Number.isFinite(s2.theta[j]!) ? Math.abs(s2.theta[j]! - v) : Math.abs(v))
-        + (sk && Number.isFinite(sk.theta[j]!) ? Math.abs(sk.theta[j]! - v) : 0);
       if (!Number.isFinite(v)) continue;
-      const [blo, bhi] = band(v, halfWidth(sd, se, sens), s1);
+      const dq = (q: WeakSolution) => (Number.isFinite(q.theta[j]!) ? (q.theta[j]! - v) ** 2 : v * v);
+      const sens = resolutionBias(v, s2.theta[j]!)
+        + Math.sqrt((dq(q0) + dq(q1)) / 2)
+        + (Number.isFinite(sm.theta[j]!) ? Math.abs(sm.theta[j]! - v) : Math.abs(v))
+        + (sk && Number.isFinite(sk.theta[j]!) ? Math.abs(sk.theta[j]! - v) : 0);
+      const [blo, bhi] = band(v, halfWidth(sd, se, sens, z), s1);
       t.x.push(x0); t.value.push(v); t.lower.push(blo); t.upper.push(bhi);
       t.sd.push(sd); t.se.push(se); t.sensitivity.push(sens);
     }
@@ -291,20 +393,25 @@ export function localCoefficients(kernel: Kernel, ctx: Pick<Context, 'noise' | '
   if (r < 4 * h) return empty(`the interval is narrower than a test bump resolvable on this grid (needs ${(8 * h).toFixed(3)})`, order);
   const params = modelParams(order, advection, false);
   const P = params.length;
-  const mk = (rad: number): WeakBlock[] => {
+  const mk = (rad: number, w = wOut): WeakBlock[] => {
     const span = hi - lo - 2 * rad;
     const n = Math.max(1, Math.floor(span / (rad / 2)) + 1);
     return Array.from({ length: n }, (_, i) => (n === 1 ? (lo + hi) / 2 : lo + rad + (span * i) / (n - 1)))
-      .flatMap((x0) => blocks1d(xOut, wOut, xIn, x0, rad, params, order));
+      .flatMap((x0) => blocks1d(xOut, w, xIn, x0, rad, params, order));
   };
+  const [wEven, wOdd] = coarseWeights1d(xOut);
   const s1 = solveWeak(kernel.G, ctx.noise.replicates, mk(r), kernel.weightsIn, P);
-  const s2 = solveWeak(kernel.G, [], mk(0.7 * r), kernel.weightsIn, P);
+  const s2 = solveWeak(kernel.G, [], mk(SHRINK * r), kernel.weightsIn, P);
+  const q0 = solveWeak(kernel.G, [], mk(r, wEven), kernel.weightsIn, P);
+  const q1 = solveWeak(kernel.G, [], mk(r, wOdd), kernel.weightsIn, P);
   const coef = (t: TermName): Coefficient | null => {
     const j = params.findIndex((p) => p.term === t);
     if (j < 0 || !Number.isFinite(s1.theta[j]!)) return null;
     const v = s1.theta[j]!;
-    const sens = Number.isFinite(s2.theta[j]!) ? Math.abs(s2.theta[j]! - v) : Math.abs(v);
-    const [lower, upper] = band(v, halfWidth(s1.sd[j]!, s1.se[j]!, sens), s1);
+    const dq = (q: WeakSolution) => (Number.isFinite(q.theta[j]!) ? (q.theta[j]! - v) ** 2 : v * v);
+    // constant-coefficient model: the change with bump size is a sensitivity, not an r² bias
+    const sens = (Number.isFinite(s2.theta[j]!) ? Math.abs(s2.theta[j]! - v) : Math.abs(v)) + Math.sqrt((dq(q0) + dq(q1)) / 2);
+    const [lower, upper] = band(v, halfWidth(s1.sd[j]!, s1.se[j]!, sens, simultaneousZ(1)), s1);
     return { value: v, lower, upper };
   };
   const out: LocalCoefficients = {
@@ -487,31 +594,66 @@ function profilesAsTerms(res: ProfileResult): OperatorTerm[] {
 
 type OperatorFinding = Findings['operator'];
 
+/** Interfaces the interfaces analysis reported (sharp changes), with their uncertainties. */
+function reportedInterfaces(ctx: Pick<Context, 'results'>): { at: number[]; margin: number[] } {
+  const ifs = (ctx.results.interfaces?.finding as Findings['interfaces'] | undefined) ?? [];
+  const use = ifs.filter((f) => typeof f.location === 'number' && Number.isFinite(f.location) && f.confidence >= 0.5);
+  return { at: use.map((f) => f.location as number), margin: use.map((f) => (Number.isFinite(f.uncertainty) ? Math.max(0, f.uncertainty) : 0)) };
+}
+
+type Profiled = ProfileResult & { segments: Segment[] };
+
 function run1d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; evidence: import('../types.js').Evidence } {
   const choice = modelChoice(ctx);
   const reps = ctx.noise.replicates;
-  const p2 = coefficientProfiles(kernel, reps, { order: 2, advection: choice.advection });
+  const [dlo, dhi] = interval(kernel.domain, kernel.pointsOut);
+  const cuts = reportedInterfaces(ctx);
+  const profiles = (opts: ProfileOptions): Profiled => {
+    const pw = cuts.at.length ? piecewiseProfiles(kernel, reps, opts, cuts.at, cuts.margin) : null;
+    if (pw) return pw;
+    const p = coefficientProfiles(kernel, reps, opts);
+    return { ...p, segments: [{ bounds: [dlo, dhi], radius: p.radius }] };
+  };
+  const p2 = profiles({ order: 2, advection: choice.advection });
   let chosen = p2;
-  let p4: ProfileResult | null = null;
+  let p4: Profiled | null = null;
+  let orderOpen = false;
   const notes = [...choice.notes];
+  if (cuts.at.length && chosen.segments.length > 1) notes.push(`coefficients fitted separately on each side of the interface${cuts.at.length > 1 ? 's' : ''} at ${cuts.at.map(fmt).join(', ')}`);
   if (choice.order === 4) {
-    p4 = coefficientProfiles(kernel, reps, { order: 4, advection: false });
+    p4 = profiles({ order: 4, advection: false });
     chosen = p4;
   } else if (choice.order === null) {
     // no order from the spectrum: let the weak form decide (a fourth-order kernel leaves a
-    // large residual in the second-order model and vice versa)
-    p4 = coefficientProfiles(kernel, reps, { order: 4, advection: false });
+    // large residual in the second-order model and vice versa); neither clearly smaller
+    // leaves the order open
+    p4 = profiles({ order: 4, advection: false });
     if (p4.residual < 0.5 * p2.residual) { chosen = p4; notes.push('order 4 chosen by the weak-form residual'); }
-    else notes.push('order 2 chosen by the weak-form residual');
+    else if (p2.residual < 0.5 * p4.residual) notes.push('order 2 chosen by the weak-form residual');
+    else { orderOpen = true; notes.push(`the order is open: the weak-form residuals of the order-2 and order-4 models are alike (${fmt(p2.residual)} vs ${fmt(p4.residual)}); the order-2 profiles are shown`); }
   }
   const leadName: TermName = chosen.order === 4 ? 'fourth-order' : 'diffusion';
   const desc = chosen.terms.map((t) => describeTerm(t, t.name === leadName));
   const lead = chosen.terms.find((t) => t.name === leadName)!;
   const leadDesc = desc.find((d) => d.name === leadName)!;
-  const range: [number, number] = [chosen.centers[0]!, chosen.centers[chosen.centers.length - 1]!];
   const leadSeparated = lead.value.filter((_, i) => lead.lower[i]! > 0).length >= lead.value.length / 2;
-  let expression = expressionOf(chosen.order, desc, range);
+  // one expression per piece (a term is written where its band excludes zero over most of the piece)
+  const pieceText = chosen.segments.map((seg) => {
+    const inSeg = (x: number) => x >= seg.bounds[0] && x <= seg.bounds[1];
+    const sub = chosen.terms.map((t) => {
+      const idx = t.x.map((x, i) => (inSeg(x) ? i : -1)).filter((i) => i >= 0);
+      const pick = (a: number[]) => idx.map((i) => a[i]!);
+      return { ...t, x: pick(t.x), value: pick(t.value), lower: pick(t.lower), upper: pick(t.upper), sd: pick(t.sd), se: pick(t.se), sensitivity: pick(t.sensitivity) };
+    }).filter((t) => t.x.length > 0);
+    const d = sub.map((t) => describeTerm(t, t.name === leadName));
+    const xs = sub[0]?.x ?? [];
+    const range: [number, number] = xs.length ? [Math.min(...xs), Math.max(...xs)] : seg.bounds;
+    const e = expressionOf(chosen.order, d, range);
+    return chosen.segments.length > 1 ? `${e.replace(/ on \[[^\]]*\]/, '')} on [${fmt(seg.bounds[0])}, ${fmt(seg.bounds[1])}]` : e;
+  });
+  let expression = pieceText.join('; ');
   if (!leadSeparated) expression = `not determined: the leading coefficient is not separated from zero (${expression})`;
+  else if (orderOpen) expression = `not determined: the order is open (order-2 reading: ${expression})`;
   // jump cross-check (second order only)
   let jump: { x: number[]; a: number[] } | null = null;
   let jumpRatio: number | null = null;
@@ -535,8 +677,9 @@ function run1d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; eviden
     significant: sigTerms,
     residual: chosen.residual,
     model_residuals: { order2: p2.residual, order4: p4 ? p4.residual : null },
+    segments: chosen.segments,
     jump_check: jumpRatio === null ? null : { median_ratio: jumpRatio, note: 'median of a from the ∂G/∂x jump over a from the weak form' },
-    reliable: leadSeparated && chosen.unreliableFraction < 0.5,
+    reliable: leadSeparated && !orderOpen && chosen.unreliableFraction < 0.5,
     notes,
   };
   const summary = leadSeparated
@@ -552,6 +695,7 @@ function run1d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; eviden
       plot: {
         kind: 'coefficient-profiles',
         radius: chosen.radius,
+        segments: chosen.segments,
         terms: chosen.terms.map((t) => ({ name: t.name, form: t.form, x: t.x, value: t.value, lower: t.lower, upper: t.upper })),
         jump: jump ? { x: jump.x, a: jump.a } : null,
       },
@@ -560,6 +704,18 @@ function run1d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; eviden
 }
 
 // ------------------------------------------------------------------ 2-D: constant a, b, c
+
+/** The four interleaved coarse product-trapezoid rules of a tensor grid (none for scattered points). */
+function coarseWeights2d(points: Mat): Float64Array[] {
+  const grid = tensorAxes(points);
+  if (!grid || grid.xs.length < 5 || grid.ys.length < 5) return [];
+  const [ex, ox] = coarseWeights1d(Float64Array.from(grid.xs));
+  const [ey, oy] = coarseWeights1d(Float64Array.from(grid.ys));
+  const idx = (axis: number[], v: number) => { let b = 0; for (let i = 1; i < axis.length; i++) if (Math.abs(axis[i]! - v) < Math.abs(axis[b]! - v)) b = i; return b; };
+  const ix = Int32Array.from({ length: points.rows }, (_, i) => idx(grid.xs, points.data[2 * i]!));
+  const iy = Int32Array.from({ length: points.rows }, (_, i) => idx(grid.ys, points.data[2 * i + 1]!));
+  return [[ex, ey], [ex, oy], [ox, ey], [ox, oy]].map(([wx, wy]) => Float64Array.from({ length: points.rows }, (_, i) => wx![ix[i]!]! * wy![iy[i]!]!));
+}
 
 /** Radial bump (1 − ρ²/R²)^p and the adjoint columns −Δφ, −∂xφ, −∂yφ, φ at a point. */
 function bump2d(x: number, y: number, cx: number, cy: number, R: number, p: number): { phi: number; dx: number; dy: number; lap: number } {
@@ -591,7 +747,7 @@ export function constantCoefficients2d(kernel: Kernel, replicates: Mat[], advect
   const side = Math.min(x1 - x0, y1 - y0);
   const names = advection ? ['diffusion', 'advection-x', 'advection-y', 'reaction'] : ['diffusion', 'reaction'];
   const P = names.length;
-  const blocksFor = (R: number): WeakBlock[] => {
+  const blocksFor = (R: number, w = wOut): WeakBlock[] => {
     const blocks: WeakBlock[] = [];
     const step = R / 1.5;
     for (let cx = x0 + R; cx <= x1 - R + 1e-12; cx += step) {
@@ -604,7 +760,7 @@ export function constantCoefficients2d(kernel: Kernel, replicates: Mat[], advect
           if (b.phi === 0) continue;
           sup.push(i);
           const cols = advection ? [-b.lap, -b.dx, -b.dy, b.phi] : [-b.lap, b.phi];
-          for (const c of cols) rows.push(c * wOut[i]!);
+          for (const c of cols) rows.push(c * w[i]!);
         }
         if (sup.length < 12) continue;
         const srcs: number[] = [];
@@ -619,9 +775,16 @@ export function constantCoefficients2d(kernel: Kernel, replicates: Mat[], advect
   const b1 = blocksFor(R);
   if (!b1.length) throw new Error('operator (2-D): no test bump fits inside the domain');
   const solution = solveWeak(kernel.G, replicates, b1, kernel.weightsIn, P);
-  const b2 = blocksFor(0.7 * R);
+  const b2 = blocksFor(SHRINK * R);
   const s2 = b2.length ? solveWeak(kernel.G, [], b2, kernel.weightsIn, P) : null;
-  const sensitivity = solution.theta.map((v, i) => (s2 && Number.isFinite(s2.theta[i]!) ? Math.abs(s2.theta[i]! - v) : Math.abs(v)));
+  // quadrature: the four interleaved coarse product rules of a tensor grid (see coarseWeights1d)
+  const coarse = coarseWeights2d(kernel.pointsOut).map((w) => { const b = blocksFor(R, w); return b.length ? solveWeak(kernel.G, [], b, kernel.weightsIn, P) : null; });
+  const sensitivity = solution.theta.map((v, i) => {
+    const res = s2 ? resolutionBias(v, s2.theta[i]!) : Math.abs(v);
+    let q = 0;
+    for (const c of coarse) q += c && Number.isFinite(c.theta[i]!) ? (c.theta[i]! - v) ** 2 : v * v;
+    return res + (coarse.length ? Math.sqrt(q / coarse.length) : 0);
+  });
   return { names, solution, sensitivity, radius: R, bumps: b1.length };
 }
 
@@ -632,7 +795,7 @@ function run2d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; eviden
     : kernel.domain.kind === 'disk' ? kernel.domain.center[0] : 0;
   const terms: OperatorTerm[] = names.map((n, i) => {
     const v = solution.theta[i]!;
-    const [lo, hi] = band(v, halfWidth(solution.sd[i]!, solution.se[i]!, sensitivity[i]!), solution);
+    const [lo, hi] = band(v, halfWidth(solution.sd[i]!, solution.se[i]!, sensitivity[i]!, simultaneousZ(1)), solution);
     const form = n === 'diffusion' ? '-∇·(a ∇u)' : n === 'reaction' ? 'c u' : n === 'advection-x' ? 'b_x ∂u/∂x' : 'b_y ∂u/∂y';
     return { name: n, form, x: [cx], value: [v], lower: [lo], upper: [hi] };
   });
@@ -663,7 +826,7 @@ function run2d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; eviden
 
 export const operatorAnalysis: Analysis<OperatorFinding> = {
   key: 'operator',
-  dependsOn: ['order', 'self_adjoint'],
+  dependsOn: ['order', 'self_adjoint', 'interfaces'],
   run(kernel, ctx) {
     if (kernel.components.in !== 1 || kernel.components.out !== 1) {
       return {

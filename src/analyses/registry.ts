@@ -24,8 +24,8 @@ export const analyses: Analysis<unknown>[] = [
   oscillation as Analysis<unknown>, // after order and transport
   screening as Analysis<unknown>,
   coupling as Analysis<unknown>,
-  operatorAnalysis as Analysis<unknown>, // after order and self_adjoint, before regions
   singularities as Analysis<unknown>,
   interfacesAnalysis as Analysis<unknown>,
+  operatorAnalysis as Analysis<unknown>, // after order, self_adjoint and interfaces; before regions
   regions as Analysis<unknown>, // after interfaces, operator, order, locality
 ];

@@ -22,7 +22,7 @@ import type { Mat } from '../linalg/dense.js';
 export type TermName = 'diffusion' | 'advection' | 'reaction' | 'fourth-order';
 
 /** One parameter of a local model: a term's coefficient as κ(x) = θ · η^degree, η = (x − x0)/r. */
-export interface Param { term: TermName; degree: 0 | 1; axis?: 0 | 1 }
+export interface Param { term: TermName; degree: 0 | 1 | 2; axis?: 0 | 1 }
 
 // ------------------------------------------------------------------ test bumps
 
@@ -75,19 +75,21 @@ export function bump1d(x: number, x0: number, r: number, p: number, upTo: number
 }
 
 /**
- * (L*_T[κ] φ)(x) for one parameter of a 1-D model, κ = η^degree, η = (x − x0)/r:
+ * (L*_T[κ] φ)(x) for one parameter of a 1-D model, κ = η^degree (degree ≤ 2), η = (x − x0)/r:
  * diffusion −(κφ')', advection −(κφ)', reaction κφ, fourth-order (κφ'')''.
  * `d` holds φ, φ', …, φ''''.
  */
 export function adjointColumn1d(p: Param, x: number, x0: number, r: number, d: number[]): number {
   const eta = (x - x0) / r;
-  const k = p.degree === 0 ? 1 : eta;
-  const k1 = p.degree === 0 ? 0 : 1 / r;
+  // κ = η^degree and its x-derivatives
+  const k = p.degree === 0 ? 1 : p.degree === 1 ? eta : eta * eta;
+  const k1 = p.degree === 0 ? 0 : p.degree === 1 ? 1 / r : (2 * eta) / r;
+  const k2 = p.degree === 2 ? 2 / (r * r) : 0;
   switch (p.term) {
     case 'diffusion': return -(k1 * d[1]! + k * d[2]!);
     case 'advection': return -(k1 * d[0]! + k * d[1]!);
     case 'reaction': return k * d[0]!;
-    case 'fourth-order': return 2 * k1 * d[3]! + k * d[4]!;
+    case 'fourth-order': return k2 * d[2]! + 2 * k1 * d[3]! + k * d[4]!;
   }
 }
 

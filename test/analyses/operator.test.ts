@@ -7,7 +7,7 @@
 import { describe, it, expect } from 'vitest';
 import { kernel1d, laplace, helmholtz, screened, advdiff, piecewise, clampedBeam } from '../helpers/closedForms.js';
 import { fitStandIn } from './op_fitStandIn.js';
-import { coefficientProfiles, localCoefficients, operatorAnalysis, jumpDiffusion } from '../../src/analyses/operator.js';
+import { coefficientProfiles, localCoefficients, operatorAnalysis, jumpDiffusion, simultaneousZ, piecewiseProfiles } from '../../src/analyses/operator.js';
 import { Rng } from '../../src/linalg/rng.js';
 import type { Kernel, NoiseFloor } from '../../src/types.js';
 import { quadratureWeights } from '../../src/quadrature.js';
@@ -130,5 +130,52 @@ describe('2-D: −Δu on the unit square — Polyanin (2002) ch. 7; Duffy (entry
     const c = out.finding.terms.find((t) => t.name === 'reaction')!;
     // a spurious reaction term must shift the lowest eigenvalue 2π² (Polyanin ch. 7) by < 2 %
     expect(Math.abs(c.value[0]!)).toBeLessThan(0.02 * 2 * Math.PI ** 2);
+  });
+});
+
+describe('bands, variable and piecewise coefficients', () => {
+  it('simultaneous band multiplier: Šidák quantiles against scipy.stats.norm.ppf(0.5 + 0.5·0.95^(1/m))', () => {
+    // python3: from scipy.stats import norm; norm.ppf(0.5 + 0.5 * 0.95 ** (1 / m))
+    const ref: [number, number][] = [[1, 1.959963984540054], [2, 2.2364766445577895], [4, 2.4909151310191397], [8, 2.727007896719966]];
+    // the shared normal CDF is Abramowitz & Stegun 7.1.26 (|error| < 1.5e-7), hence 1e-5 in z
+    for (const [m, z] of ref) expect(Math.abs(simultaneousZ(m) - z)).toBeLessThan(1e-5);
+  });
+  it('a(x) = 1 + x²: the profile follows a pointwise and no reaction term is claimed — G = atan(min)(π/4 − atan(max))/(π/4), the Green\'s function of −(p u′)′ with u(0) = u(1) = 0 built from the solutions atan x and π/4 − atan x (Stakgold & Holst ch. 1)', () => {
+    const g = (x: number, s: number) => Math.atan(Math.min(x, s)) * (Math.PI / 4 - Math.atan(Math.max(x, s))) / (Math.PI / 4);
+    const p = coefficientProfiles(kernel1d(g, 200), [], { order: 2, advection: false });
+    const a = term(p, 'diffusion');
+    a.x.forEach((x, i) => {
+      expect(Math.abs(a.value[i]! - (1 + x * x)) / (1 + x * x)).toBeLessThan(0.05);
+      expect(a.lower[i]! <= 1 + x * x && 1 + x * x <= a.upper[i]!).toBe(true);
+    });
+    expect(covered(term(p, 'reaction'), 0)).toBe(true);
+  });
+  it('piecewise bar a = 1 | 3 at 0.55: per-side profiles cover the truth and no bump straddles the interface — entry e (derived from (i))', () => {
+    const p = piecewiseProfiles(kernel1d(piecewise(1, 3, 0.55), 200), [], { order: 2, advection: false }, [0.55], [0.01])!;
+    expect(p.segments.length).toBe(2);
+    const a = term(p, 'diffusion');
+    a.x.forEach((x, i) => {
+      const want = x < 0.55 ? 1 : 3;
+      const seg = p.segments.find((sg) => x >= sg.bounds[0] && x <= sg.bounds[1])!;
+      expect(x - seg.radius >= seg.bounds[0] - 1e-12 && x + seg.radius <= seg.bounds[1] + 1e-12).toBe(true);
+      expect(Math.abs(a.value[i]! - want) / want).toBeLessThan(0.05);
+      expect(a.lower[i]! <= want && want <= a.upper[i]!).toBe(true);
+    });
+  });
+  it('the analysis writes one expression per side when the interfaces analysis reports an interface (entry e)', () => {
+    const k = kernel1d(piecewise(1, 3, 0.55), 200);
+    const out = operatorAnalysis.run(k, ctxOf(none, {
+      self_adjoint: { finding: { verdict: 'yes', confidence: 0.95 } },
+      order: { finding: { estimate: 2, confidence: 0.9 } },
+      interfaces: { finding: [{ location: 0.55, uncertainty: 0.01, confidence: 0.9 }] },
+    }) as never);
+    const m = /^-([\d.]+) u'' = f on \[0, ([\d.]+)\]; -([\d.]+) u'' = f on \[([\d.]+), ([\d.]+)\]$/.exec(out.finding.expression);
+    expect(m, out.finding.expression).not.toBeNull();
+    expect(Math.abs(Number(m![1]) - 1)).toBeLessThan(0.05);
+    expect(Math.abs(Number(m![3]) - 3) / 3).toBeLessThan(0.05);
+    // the pieces stop short of the interface by its stated uncertainty
+    expect(Number(m![2])).toBeCloseTo(0.54, 6);
+    expect(Number(m![4])).toBeCloseTo(0.56, 6);
+    expect(Number(m![5])).toBe(1);
   });
 });
