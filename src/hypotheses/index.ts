@@ -126,6 +126,11 @@ function contradictions(f: Base, claim: Claim): { say: string; strength: number 
   if (f.order.estimate === 2 && f.regions.some((r) => r.character === 'higher-order')) out.push({ say: 'the spectrum points to a second-order operator while a region looks higher-order', strength: conf(f.order) });
   if (f.order.estimate === 4 && f.regions.length > 0 && f.regions.every((r) => r.character === 'diffusion')) out.push({ say: 'the spectrum points to a fourth-order operator while the regions look like plain diffusion', strength: conf(f.order) });
   if (f.locality.verdict === 'nonlocal' && f.order.estimate !== null && conf(f.order) >= 0.8) out.push({ say: `a non-local kernel was reported although the spectrum fits a differential operator of order ${f.order.estimate}`, strength: Math.min(conf(f.locality, 'nonlocal'), conf(f.order)) });
+  const jc = (f.operator as { jump_check?: { median_ratio?: number } | null }).jump_check;
+  if (has('locality') && f.locality.verdict === 'nonlocal' && jc && typeof jc.median_ratio === 'number' && jc.median_ratio >= 2 / 3 && jc.median_ratio <= 1.5) {
+    // a fixed strength: the jump check carries no confidence of its own (our stated default)
+    out.push({ say: `the kernel's slope jumps across its diagonal by an amount that matches the weak-form conductivity (ratio ${num(jc.median_ratio)}), as a second-order differential operator's does`, strength: 0.5 });
+  }
   const c = termMean(f, 'reaction');
   const sig = (f.operator as { significant?: string[] }).significant ?? [];
   if (c && sig.includes('reaction')) {
@@ -197,6 +202,18 @@ export function buildHypotheses(f: Base): Hypothesis[] {
     : globalPhysics(f);
   out.push(finish(physics, f));
 
+  // strong structural verdicts the physics statement does not already carry
+  const tr = f.transport.verdict;
+  if ((tr === '+x' || tr === '-x') && !physics.evidence.includes('transport') && !/toward [+-]x/.test(physics.text)) {
+    const pe = typeof f.transport.peclet === 'number' ? `; Péclet ≈ ${num(f.transport.peclet)}${typeof f.transport.peclet_uncertainty === 'number' ? ` ± ${num(f.transport.peclet_uncertainty)}` : ''}` : '';
+    const sa = f.self_adjoint.verdict === 'no' ? conf(f.self_adjoint) : 1;
+    out.push(finish({ text: `Something carries the quantity toward ${tr}, as a flow or a moving medium would: the kernel is not symmetric and its skew part points that way${pe}`, confidence: conf(f.transport) * sa, evidence: f.self_adjoint.verdict === 'no' ? ['transport', 'self_adjoint'] : ['transport'] }, f));
+  }
+  if (f.translation_invariant.verdict === 'no' && !physics.evidence.includes('translation_invariant') && !physics.evidence.includes('regions')) {
+    const cps = ((f.translation_invariant as { change_points?: unknown }).change_points as number[] | undefined)?.filter((x) => typeof x === 'number' && Number.isFinite(x)) ?? [];
+    out.push(finish({ text: `The medium is not uniform: the response depends on where the forcing is applied, not only on the distance from it${cps.length ? `; it changes most near x ≈ ${cps.map((x) => num(x, 3)).join(' and ')}` : ''}`, confidence: conf(f.translation_invariant), evidence: ['translation_invariant'] }, f));
+  }
+
   // the estimated equation itself
   const op = f.operator as Base['operator'] & { reliable?: boolean };
   if (op && op.expression && !/^not (determined|estimated)/.test(op.expression)) {
@@ -205,7 +222,12 @@ export function buildHypotheses(f: Base): Hypothesis[] {
     const c = physics.confidence * (reliable ? (poor ? 0.6 : 0.9) : 0.4);
     out.push(finish({ text: `The local equation is approximately ${op.expression}`, confidence: c, evidence: ['operator', ...physics.evidence] }, f));
   } else if (op && /^not determined/.test(op.expression ?? '')) {
-    out.push(finish({ text: 'The data do not determine the local coefficients of the operator at this noise level; more experiments or lower noise would be needed', confidence: 0.8, evidence: ['operator'] }, f));
+    const res = (op as { residual?: unknown }).residual;
+    const resText = typeof res === 'number' && Number.isFinite(res) ? ` (the best local model leaves ${Math.round(Math.min(res, 9.99) * 100)} % of the weak-form equations unexplained)` : '';
+    const text = /order is open/.test(op.expression)
+      ? `The local equation is not determined: second- and fourth-order local models fit the kernel about equally${resText}, as happens when coefficients change sharply inside a test region or the operator is not a differential one`
+      : `The data do not determine the local coefficients of the operator: the leading coefficient is not separated from zero${resText}; more experiments or lower noise would be needed`;
+    out.push(finish({ text, confidence: 0.8, evidence: ['operator'] }, f));
   }
 
   // internal layers and sharp features

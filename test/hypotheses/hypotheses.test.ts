@@ -106,3 +106,29 @@ describe('buildHypotheses', () => {
     expect(h.some((x) => x.statement.startsWith('The data do not determine the local coefficients'))).toBe(true);
   });
 });
+
+describe('buildHypotheses: structural verdicts are not hidden by one physics statement', () => {
+  it('a non-local verdict does not hide confident transport and non-uniformity, and a matching diagonal slope jump contradicts it', () => {
+    const f = base({
+      locality: { verdict: 'nonlocal', confidence: 0.85 },
+      order: { estimate: null, decay_exponent: 1.25, confidence: 0.5 },
+      self_adjoint: { verdict: 'no', defect: 1.1, noise_floor: 0.06, confidence: 1 },
+      transport: { verdict: '+x', direction: [1], confidence: 1, peclet: 4.1, peclet_uncertainty: 0.18 },
+      translation_invariant: { verdict: 'no', defect: 0.065, confidence: 1, change_points: [0.324, 0.616] },
+      operator: { expression: "not determined: the order is open (order-2 reading: -0.0328 u'' = f)", terms: [], reliable: false, residual: 0.51, jump_check: { median_ratio: 1.36 } },
+    });
+    const h = buildHypotheses(f);
+    const t = h.find((x) => x.evidence.includes('transport'))!;
+    expect(t.statement).toBe('Something carries the quantity toward +x, as a flow or a moving medium would: the kernel is not symmetric and its skew part points that way; Péclet ≈ 4.1 ± 0.18.');
+    expect(t.confidence).toBeCloseTo(1, 2);
+    const u = h.find((x) => x.evidence.includes('translation_invariant'))!;
+    expect(u.statement).toContain('near x ≈ 0.324 and 0.616');
+    const nl = h.find((x) => x.evidence.includes('locality'))!;
+    // halved by a contradiction of strength 0.5: 0.85 · (1 − 0.25)
+    expect(nl.confidence).toBeCloseTo(0.85 * 0.75, 2);
+    expect(nl.caveats!.join(' ')).toContain('slope jumps across its diagonal');
+    expect(h[0]!.evidence).toContain('transport');
+    const op = h.find((x) => x.evidence.includes('operator'))!;
+    expect(op.statement).toContain('second- and fourth-order local models fit the kernel about equally (the best local model leaves 51 %');
+  });
+});
