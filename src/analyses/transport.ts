@@ -17,7 +17,7 @@ import type { Analysis, AnalysisOutput, Context } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { squareView, replicates, deviations, decide, sig, domainLength, std, type SquareView } from './util/a_common.js';
-import { numberOption } from './selfAdjoint.js';
+import { numberOption, driftedKernel } from './selfAdjoint.js';
 
 type F = Findings['transport'];
 
@@ -135,7 +135,10 @@ export const transport: Analysis<F> = {
     const mag = Math.hypot(...T);
     // per-component floor (RMS over replicates), then the floor of the magnitude
     const floor = Tr.length ? Math.sqrt(Tr.reduce((s, t) => s + t.reduce((q, v) => q + v * v, 0), 0) / Tr.length / dim) : NaN;
-    const dT = decide(mag, floor, numberOption(ctx, 'transportResolution', 0.05));
+    // the smallest transport worth reporting: the skew mass a drift of Péclet number 1 would give this kernel
+    const L0 = domainLength(kernel);
+    const res = Math.hypot(...skewMass(driftedKernel(G, view, dim, L0, 1), view, dim, c, den));
+    const dT = decide(mag, floor, numberOption(ctx, 'transportResolution', res));
 
     // drift rate and Péclet number (first diagonal block)
     const n = view.x.length;
@@ -181,6 +184,7 @@ export const transport: Analysis<F> = {
         peclet_uncertainty: verdict === '+x' || verdict === '-x' ? sig(peSd, 2) : null,
         confidence,
         skew_mass: T.map((v) => sig(v, 4) ?? 0),
+        resolution: sig(res, 3),
         ...(dim === 2 ? { dominant_axis: label } : {}),
       },
       evidence: {

@@ -208,31 +208,32 @@ export type Decision = 'present' | 'absent' | 'inconclusive';
 /**
  * Three-way decision on an effect whose size is `stat` (≥ 0) when pure noise would give
  * about `floor` (one standard unit). Our rule, stated once for all analyses:
- *  - present when stat ≥ 3·floor (confidence Φ(z − 2), the shared separationConfidence map);
- *  - absent when stat ≤ 1.5·floor and the floor itself is below `resolution`, the smallest
- *    effect worth reporting (confidence Φ(2.5 − z), reduced as the floor approaches the
- *    resolution: a small floor is what makes "absent" informative);
- *  - absent also when not separated but stat + 3·floor < resolution (an equivalence test:
- *    whatever effect there is, it is confidently below the resolution; confidence ≤ 0.9);
+ *  - present when stat ≥ 3·floor (confidence Φ(z − 2), the shared separationConfidence map;
+ *    "3 sigma to claim" is common practice);
+ *  - absent only by an equivalence test: the one-sided 95 % upper bound stat + 1.645·floor lies
+ *    below `resolution`, the smallest effect worth reporting (two one-sided tests, Schuirmann,
+ *    J. Pharmacokinet. Biopharm. 15 (1987)); confidence Φ((resolution − stat)/floor − 1), one
+ *    unit held back for the floor's own uncertainty. A statistic merely "within the noise" is
+ *    not evidence of absence when the noise is as large as the effects of interest;
  *  - inconclusive otherwise (confidence 0.5: the data do not decide).
- * The factors 3 and 1.5 are the common "3 sigma to claim, within noise to deny" practice.
+ * A floor that is unknown (NaN, no replicates) decides nothing; a floor of exactly 0 (exact
+ * replicates) makes any positive statistic present.
  */
 export function decide(stat: number, floor: number, resolution: number): { decision: Decision; confidence: number; z: number } {
-  if (!Number.isFinite(stat)) return { decision: 'inconclusive', confidence: 0.5, z: NaN };
-  const f = floor > 0 && Number.isFinite(floor) ? floor : 0;
+  if (!Number.isFinite(stat) || !(floor >= 0)) return { decision: 'inconclusive', confidence: 0.5, z: NaN };
+  const f = floor;
   const z = f > 0 ? stat / f : (stat > 0 ? Infinity : 0);
   if (z >= 3) return { decision: 'present', confidence: clamp01(round3(normalCdf(z - 2))), z };
-  if (z <= 1.5 && f < resolution) {
-    const c = normalCdf(2.5 - z) * (1 - 0.5 * f / resolution);
-    return { decision: 'absent', confidence: clamp01(round3(c)), z };
-  }
-  // equivalence: not separated from noise, but confidently smaller than the resolution
-  if (f > 0 && stat + 3 * f < resolution) {
-    const c = Math.min(0.9, normalCdf((resolution - stat) / f - 2)) * (1 - 0.5 * f / resolution);
+  if (f === 0) return stat < resolution ? { decision: 'absent', confidence: 0.99, z } : { decision: 'inconclusive', confidence: 0.5, z };
+  if (stat + EQUIVALENCE_Z * f < resolution) {
+    const c = Math.min(0.99, normalCdf((resolution - stat) / f - 1));
     return { decision: 'absent', confidence: clamp01(round3(c)), z };
   }
   return { decision: 'inconclusive', confidence: 0.5, z };
 }
+
+/** One-sided 95 % normal quantile used by the equivalence branch of `decide`. */
+export const EQUIVALENCE_Z = 1.6449;
 
 export function round3(x: number): number {
   return Math.round(x * 1000) / 1000;
