@@ -31,9 +31,15 @@ export function listExamples(): string[] {
 export function readScenario(name: string): Scenario {
   const p = join(EXAMPLES_DIR, name, 'scenario.json');
   if (!existsSync(p)) throw new UsageError(`--example: no scenario "${name}" (have: ${listExamples().join(', ')})`);
-  try { return JSON.parse(readFileSync(p, 'utf8')) as Scenario; } catch (e) {
+  let sc: Scenario;
+  try { sc = JSON.parse(readFileSync(p, 'utf8')) as Scenario; } catch (e) {
     throw new InputError({ file: p }, `invalid JSON: ${(e as Error).message}`);
   }
+  const a = sc.amplitudes;
+  if (a !== undefined && !(Array.isArray(a) && a.length === 2 && a[0] > 0 && a[1] >= a[0])) {
+    throw new InputError({ file: p }, '"amplitudes" must be [lo, hi] with 0 < lo ≤ hi');
+  }
+  return sc;
 }
 
 /** Simulate an example's study into `studyDir` (atomic). */

@@ -202,6 +202,16 @@ export function stackSpec(panels: Panel[], o: { xTitle: string; xDomain?: [numbe
   return { spec: spec as unknown as Spec, width: width + SPAD.left + SPAD.right, height: height + SPAD.top + SPAD.bottom };
 }
 
+/** Share of the colour ramp (from its light end) beyond which cell text is drawn light. */
+export const DARK_FROM = 0.6;
+
+/** Whether a cell's value falls on the dark part of the ramp (light text then). */
+export function cellTextOnDark(v: number, colorDomain: [number, number], diverging: boolean): boolean {
+  const [lo, hi] = colorDomain, mid = (lo + hi) / 2;
+  const t = diverging ? Math.abs(v - mid) / ((hi - mid) || 1) : (v - lo) / ((hi - lo) || 1);
+  return t > DARK_FROM;
+}
+
 export interface HeatCell { x0: number; x1: number; y0: number; y1: number; v: number; t?: string; t2?: string }
 
 export interface HeatOptions {
@@ -253,6 +263,8 @@ export function heatSpec(cells: HeatCell[], o: HeatOptions): HeatSpec {
   if (!(y0 < y1)) { y0 = 0; y1 = 1; }
   const stops = o.diverging ? DIVERGING : SEQUENTIAL;
   const mid = (colorDomain[0] + colorDomain[1]) / 2;
+  // light text on the dark end of the ramp (same rule as the PDF: cellTextOnDark)
+  const darkSignal = `cellDark(datum.v) ? '#ffffff' : '${INK}'`.replace('cellDark(datum.v)', `(${o.diverging ? 'abs(datum.v - ' + mid + ')' : '(datum.v - ' + colorDomain[0] + ')'} / ${o.diverging ? (colorDomain[1] - mid) || 1 : (colorDomain[1] - colorDomain[0]) || 1}) > ${DARK_FROM}`);
   const mk = (withCells: boolean): Spec => ({
     $schema: 'https://vega.github.io/schema/vega/v6.json',
     width, height, padding: { ...PAD, right: 96 }, autosize: 'none', background: '#ffffff',
@@ -277,10 +289,10 @@ export function heatSpec(cells: HeatCell[], o: HeatOptions): HeatSpec {
         fill: { scale: 'color', field: 'v' } } } },
       ...(o.text ? [{ type: 'text', from: { data: 'cells' }, encode: { enter: {
         x: { signal: "(scale('x', datum.x0) + scale('x', datum.x1)) / 2" }, y: { signal: "(scale('y', datum.y0) + scale('y', datum.y1)) / 2", offset: 4 },
-        text: { field: 't' }, align: { value: 'center' }, fontSize: { value: 12 }, font: { value: FONT }, fill: { value: INK } } } },
+        text: { field: 't' }, align: { value: 'center' }, fontSize: { value: 12 }, font: { value: FONT }, fill: { signal: darkSignal } } } },
         { type: 'text', from: { data: 'cells' }, encode: { enter: {
         x: { signal: "(scale('x', datum.x0) + scale('x', datum.x1)) / 2" }, y: { signal: "(scale('y', datum.y0) + scale('y', datum.y1)) / 2", offset: 18 },
-        text: { signal: "datum.t2 || ''" }, align: { value: 'center' }, fontSize: { value: 9 }, font: { value: FONT }, fill: { value: MUTED } } } }] : []),
+        text: { signal: "datum.t2 || ''" }, align: { value: 'center' }, fontSize: { value: 9 }, font: { value: FONT }, fill: { signal: darkSignal } } } }] : []),
       { type: 'rect', encode: { enter: { x: { value: 0 }, y: { value: 0 }, x2: { signal: 'width' }, y2: { signal: 'height' }, stroke: { value: MUTED }, strokeWidth: { value: 0.8 } } } },
     ],
   } as unknown as Spec);

@@ -82,7 +82,7 @@ export function homogeneousFigure(k: Kernel, relErr: number | null, L: Labels): 
     let bandNote = 'no uncertainty estimate of u_h was found (kernel/fit.json gives none), so no band is drawn';
     for (let c = 0; c < co; c++) {
       const x = Array.from(k.pointsOut.data), y = Array.from(h.subarray(c * n, (c + 1) * n));
-      const idx = spreadIndices(n, 400);
+      const idx = spreadIndices(n, 200);
       const xs = idx.map((i) => x[i]!), ys = idx.map((i) => y[i]!);
       let lower: number[] | null = null, upper: number[] | null = null;
       if (relErr !== null && Number.isFinite(relErr) && relErr >= 0) {
@@ -441,7 +441,7 @@ export function coefficientFigures(F: Findings, L: Labels): SectionFigures {
     layers.push({ kind: 'line', name: `${t.name} (weak form)`, x, y: v, points: true, color: SERIES[ti % 3]! });
     let jumpNote = '';
     if (t.name === 'diffusion' && jx && ja && jx.length === ja.length) {
-      const idx = spreadIndices(jx.length, 160).filter((i) => Number.isFinite(ja[i]!) && ja[i]! > 0);
+      const idx = spreadIndices(jx.length, 80).filter((i) => Number.isFinite(ja[i]!) && ja[i]! > 0);
       // keep the cross-check inside the range of interest (its ends are dominated by noise)
       const q1 = quantile(ja, 0.1), q9 = quantile(ja, 0.9);
       const keepIdx = idx.filter((i) => ja[i]! >= q1 - (q9 - q1) && ja[i]! <= q9 + (q9 - q1));
@@ -490,7 +490,7 @@ export function sliceFigures(k: Kernel, L: Labels, opts: { logAbs?: boolean } = 
     const n = k.pointsIn.rows, nOut = k.pointsOut.rows;
     const picks = [0.25, 0.5, 0.75].map((f) => Math.min(n - 1, Math.round(f * (n - 1))));
     const xs = Array.from(k.pointsOut.data);
-    const idx = spreadIndices(nOut, 400);
+    const idx = spreadIndices(nOut, 200);
     const layers: Layer[] = [];
     const data: Record<string, unknown> = {};
     picks.forEach((j, t) => {

@@ -10,7 +10,8 @@ import SVGtoPDF from 'svg-to-pdfkit';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import type { DossierModel, FigureRef } from './model.js';
-import { rampColor } from './palette.js';
+import { rampColor, DIVERGING } from './palette.js';
+import { cellTextOnDark } from './charts.js';
 
 const require = createRequire(import.meta.url);
 const FONT_DIR = join(dirname(require.resolve('dejavu-fonts-ttf/package.json')), 'ttf');
@@ -123,8 +124,9 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
         const ax = px(c.x0), bx = px(c.x1), ay = py(c.y1), by = py(c.y0);
         // a hair of overlap hides seams between cells in PDF viewers
         doc.rect(Math.min(ax, bx), Math.min(ay, by), Math.abs(bx - ax) + 0.15, Math.abs(by - ay) + 0.15).fill(rgb);
-        if (c.t) doc.font('body').fontSize(9).fillColor(C.ink).text(c.t, Math.min(ax, bx), (ay + by) / 2 - (c.t2 ? 9 : 5), { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
-        if (c.t2) doc.font('body').fontSize(6.5).fillColor(C.muted).text(c.t2, Math.min(ax, bx), (ay + by) / 2 + 3, { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
+        const ink = cellTextOnDark(c.v, H.colorDomain, H.stops === DIVERGING) ? '#ffffff' : C.ink;
+        if (c.t) doc.font('body').fontSize(9).fillColor(ink).text(c.t, Math.min(ax, bx), (ay + by) / 2 - (c.t2 ? 9 : 5), { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
+        if (c.t2) doc.font('body').fontSize(6.5).fillColor(ink).text(c.t2, Math.min(ax, bx), (ay + by) / 2 + 3, { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
       }
       doc.rect(x + H.plot.x * sc, y + H.plot.y * sc, H.plot.width * sc, H.plot.height * sc).lineWidth(0.5).strokeColor(C.muted).stroke();
     } else {
