@@ -138,7 +138,15 @@ export function scanPoles(xIn: ArrayLike<number>, fIn: ArrayLike<number>, opts: 
     cur.push(q);
   }
   flush();
-  const inside = clusters.filter((c) => c.location > opts.lo + margin && c.location < opts.hi - margin);
+  // resolution: a singularity's poles sit closer to the axis than half the gap to the
+  // neighbouring clusters; a row of poles about as far from the axis as they are apart is how a
+  // rational approximant represents a smooth function (or a smeared error), not a singularity
+  const isolated = clusters.filter((c, k) => {
+    const gapL = k > 0 ? c.location - clusters[k - 1]!.location : Infinity;
+    const gapR = k + 1 < clusters.length ? clusters[k + 1]!.location - c.location : Infinity;
+    return c.width < 0.5 * Math.min(gapL, gapR);
+  });
+  const inside = isolated.filter((c) => c.location > opts.lo + margin && c.location < opts.hi - margin);
   return { clusters: inside, terms, noise, poles: near };
 }
 
@@ -210,6 +218,32 @@ export interface SingularityOptions {
   /** scan the homogeneous part / the kernel (default both) */
   homogeneous?: boolean;
   kernel?: boolean;
+  /** pointwise replicate standard deviation of u_h: u_h is scanned only where it stands above it */
+  homogeneousSd?: Float64Array | null;
+  /** size of a typical response (max|G| · L), below √ε of which u_h counts as zero */
+  responseScale?: number;
+}
+
+/** max|G| times the domain length: the size of the response to a unit forcing */
+export function responseScale(G: Mat, L: number): number {
+  let m = 0;
+  for (const v of G.data) if (Number.isFinite(v)) m = Math.max(m, Math.abs(v));
+  return m * L;
+}
+
+/**
+ * u_h is worth scanning when its range clears three times its typical replicate spread (common
+ * practice) and is not numerically zero: above √ε (≈ 1.5e-8, the accuracy of a least-squares
+ * solve) times `scale`, the size of a typical response (max|G| times the domain length).
+ */
+export function homogeneousSignificant(u: Float64Array, sd: Float64Array | null | undefined, scale = 0): boolean {
+  let lo = Infinity, hi = -Infinity;
+  for (const v of u) if (Number.isFinite(v)) { lo = Math.min(lo, v); hi = Math.max(hi, v); }
+  if (!(hi > lo) || hi - lo <= Math.sqrt(Number.EPSILON) * scale) return false;
+  if (!sd || !sd.length) return true;
+  let s2 = 0, n = 0;
+  for (const v of sd) if (Number.isFinite(v)) { s2 += v * v; n++; }
+  return n === 0 || hi - lo > 3 * Math.sqrt(s2 / n);
 }
 
 /**
@@ -229,7 +263,7 @@ export function findSingularities(G: Mat, homogeneous: Float64Array | null, kern
   const found: Singularity[] = [];
   const plot: { re: number; im: number; influence: number; source: string }[] = [];
   let scans = 0;
-  if (homogeneous && homogeneous.length >= nOut && opts.homogeneous !== false) {
+  if (homogeneous && homogeneous.length >= nOut && opts.homogeneous !== false && homogeneousSignificant(homogeneous.subarray(0, nOut), opts.homogeneousSd, opts.responseScale ?? responseScale(G, L))) {
     const s = scanPoles(xOut, homogeneous.subarray(0, nOut), { lo, hi, maxTerms: 24 });
     scans++;
     for (const q of s.poles) plot.push({ ...q, source: 'homogeneous' });
@@ -270,6 +304,62 @@ export function findSingularities(G: Mat, homogeneous: Float64Array | null, kern
   return { found, plot, scans };
 }
 
+/**
+ * Probability that a singularity of the smallest size we report would be found: a layer
+ * A·tanh((x − x0)/δ) added to u_h with A a quarter of u_h's range, and a smoothed kink
+ * A·δ·log cosh((x − x0)/δ) added to the middle row of G with A a quarter of the row's largest
+ * slope (our convention: a feature that changes the function by a quarter), δ = max(2h, 0.01 L),
+ * at three fixed places; power = fraction recovered within the location tolerance. The feature
+ * is added to resampled kernels (replicate k for place k) so that it must survive the fit's
+ * resampling noise, not only the smoothness of the point estimate. u_h counts only when it
+ * stands above its replicate spread.
+ */
+export function detectionPower(G: Mat, homogeneous: Float64Array | null, kernel: Kernel, hSd: Float64Array | null, reps: Mat[] = [], hreps: Float64Array[] = []): { homogeneous: number; kernel: number } {
+  const [lo, hi] = bounds1d(kernel);
+  const L = hi - lo;
+  const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
+  const xOut = kernel.pointsOut.data.slice(0, nOut), xIn = kernel.pointsIn.data.slice(0, nIn);
+  const h = Math.max(medianSpacing(xOut), medianSpacing(xIn));
+  const tol = Math.max(3 * h, 0.02 * L);
+  const delta = Math.max(2 * h, 0.01 * L);
+  const places = [0.27, 0.5, 0.73].map((f) => lo + f * L);
+  const recovered = (x: Float64Array, f: Float64Array, x0: number, maxTerms: number) => scanPoles(x, f, { lo, hi, maxTerms }).clusters.some((c) => Math.abs(c.location - x0) < tol);
+  let pH = 0, pK = 0;
+  const sortedOut = Array.from(xOut).every((v, i, a) => i === 0 || v > a[i - 1]!);
+  if (homogeneous && homogeneous.length >= nOut && sortedOut && homogeneousSignificant(homogeneous.subarray(0, nOut), hSd, responseScale(G, L))) {
+    const u = homogeneous.subarray(0, nOut);
+    let mn = Infinity, mx = -Infinity;
+    for (const v of u) { mn = Math.min(mn, v); mx = Math.max(mx, v); }
+    const A = 0.25 * (mx - mn);
+    let hit = 0;
+    places.forEach((x0, k) => {
+      const base = hreps[k] && hreps[k]!.length >= nOut ? hreps[k]!.subarray(0, nOut) : u;
+      hit += recovered(xOut, Float64Array.from(base, (v, i) => v + A * Math.tanh((xOut[i]! - x0) / delta)), x0, 24) ? 1 : 0;
+    });
+    pH = hit / places.length;
+  }
+  const sortedIn = Array.from(xIn).every((v, i, a) => i === 0 || v > a[i - 1]!);
+  if (sortedIn && nOut >= 12) {
+    // the row nearest the middle; places away from its own diagonal kink
+    let i0 = 0;
+    for (let i = 1; i < nOut; i++) if (Math.abs(xOut[i]! - (lo + hi) / 2) < Math.abs(xOut[i0]! - (lo + hi) / 2)) i0 = i;
+    const row = G.data.slice(i0 * G.cols, i0 * G.cols + nIn);
+    let slope = 0;
+    for (let j = 1; j < nIn; j++) slope = Math.max(slope, Math.abs((row[j]! - row[j - 1]!) / (xIn[j]! - xIn[j - 1]!)));
+    const A = 0.25 * slope;
+    const pl = places.filter((x0) => Math.abs(x0 - xOut[i0]!) > 3 * tol);
+    let hit = 0;
+    const lc = (t: number) => Math.abs(t) + Math.log1p(Math.exp(-2 * Math.abs(t))) - Math.LN2; // log cosh, overflow-free
+    pl.forEach((x0, k) => {
+      const R = reps[k];
+      const base = R ? Float64Array.from({ length: nIn }, (_, j) => R.data[i0 * R.cols + j]!) : row;
+      hit += recovered(xIn, Float64Array.from(base, (v, j) => v + A * delta * lc((xIn[j]! - x0) / delta)), x0, 16) ? 1 : 0;
+    });
+    pK = pl.length ? hit / pl.length : 0;
+  }
+  return { homogeneous: pH, kernel: pK };
+}
+
 const EXPLANATION = 'A steep internal layer, shock or kink makes a rational approximation place poles just off the real axis next to it; their distance from the axis measures how sharp the feature is. We fit rational functions (AAA) to the homogeneous part, to rows and columns of the kernel and to its diagonal, choose their degree by predicting every other sample from the rest, and keep only poles whose pull on the axis stands well above that prediction error. In the kernel, the kink on its own diagonal moves with the row and is discarded; a singularity counts only where poles recur at the same place across many rows and columns and across the resampled kernels.';
 
 export const singularities: Analysis<F> = {
@@ -291,7 +381,21 @@ export const singularities: Analysis<F> = {
       for (let i = 0; i < nOut; i++) for (let j = 0; j < nIn; j++) d[i * nIn + j] = G.data[i * G.cols + j]!;
       return { rows: nOut, cols: nIn, data: d };
     };
-    const main = findSingularities(block(kernel.G), kernel.homogeneous, kernel);
+    // pointwise replicate spread of u_h (its noise floor)
+    const hrepsAll = ctx.noise.homogeneousReplicates.filter((u) => u && u.length >= nOut);
+    let hSd: Float64Array | null = null;
+    if (kernel.homogeneous && hrepsAll.length >= 2) {
+      hSd = new Float64Array(nOut);
+      for (let i = 0; i < nOut; i++) {
+        let m = 0;
+        for (const u of hrepsAll) m += u[i]!;
+        m /= hrepsAll.length;
+        let v = 0;
+        for (const u of hrepsAll) v += (u[i]! - m) ** 2;
+        hSd[i] = Math.sqrt(v / (hrepsAll.length - 1));
+      }
+    }
+    const main = findSingularities(block(kernel.G), kernel.homogeneous, kernel, { homogeneousSd: hSd });
     const maxReps = Math.max(0, Math.min(8, Number(ctx.options['singularityReplicates'] ?? 8)));
     const reps = ctx.noise.replicates.slice(0, maxReps);
     const hreps = ctx.noise.homogeneousReplicates;
@@ -301,7 +405,7 @@ export const singularities: Analysis<F> = {
     const wantH = main.found.some((s) => s.source === 'homogeneous');
     const wantK = main.found.some((s) => s.source === 'kernel');
     const repFound = wantH || wantK
-      ? reps.map((R, k) => findSingularities(block(R), hreps[k] ?? null, kernel, { homogeneous: wantH, kernel: wantK }).found)
+      ? reps.map((R, k) => findSingularities(block(R), hreps[k] ?? null, kernel, { homogeneous: wantH, kernel: wantK, homogeneousSd: hSd }).found)
       : [];
     const finding: F = [];
     for (const s of main.found) {
@@ -325,16 +429,32 @@ export const singularities: Analysis<F> = {
       });
     }
     finding.sort((a, b) => (a.location as number) - (b.location as number));
+    // an empty list claims absence only where a singularity of the smallest size we report
+    // would have been found at this noise level (injection test on u_h and on a row of G)
+    let verdict: 'found' | 'none' | 'inconclusive' = 'found';
+    let confidence = finding.length ? Math.min(...finding.map((f) => f.confidence)) : 0;
+    let power: { homogeneous: number; kernel: number } | null = null;
+    if (!finding.length) {
+      power = detectionPower(block(kernel.G), kernel.homogeneous, kernel, hSd, reps.map(block), hrepsAll);
+      const pw = Math.max(power.homogeneous, power.kernel);
+      const strongestRejected = main.found.length ? Math.max(...main.found.map((q) => separationConfidence(q.influence, q.noise))) : 0;
+      // a candidate seen in the kernel but not confirmed by the replicates leaves the answer open
+      confidence = clamp01(pw * (1 - strongestRejected));
+      verdict = pw >= 0.5 && confidence >= 0.5 ? 'none' : 'inconclusive';
+    }
     const strongest = main.found.reduce((m, s) => Math.max(m, s.influence / (s.noise || 1)), 0);
     const summary = finding.length
       ? `${finding.length} singularit${finding.length > 1 ? 'ies' : 'y'} off the diagonal: ` + finding.map((f) => `x ≈ ${(f.location as number).toFixed(3)} (width ≈ ${f.width.toExponential(1)}, ${f.source}, confidence ${f.confidence.toFixed(2)})`).join('; ') + '.'
-      : `No pole cluster recurs off the diagonal (${main.scans} rational fits${reps.length ? `, ${reps.length} resampled kernels` : ''}).`;
+      : verdict === 'none'
+        ? `No pole cluster recurs off the diagonal (${main.scans} rational fits${reps.length ? `, ${reps.length} resampled kernels` : ''}); a layer or kink of the smallest size we report would have been found with probability ${Math.max(power!.homogeneous, power!.kernel).toFixed(2)}.`
+        : `Undecided: no pole cluster recurs off the diagonal, but at this noise level a layer or kink of the smallest size we report would be found only with probability ${Math.max(power!.homogeneous, power!.kernel).toFixed(2)}.`;
     const evidence: Evidence = {
       statistic: main.found.length ? round(strongest) : null,
       noise_floor: main.found.length ? 3 : null,
       summary,
       explanation: EXPLANATION,
-      plot: { segment: [lo, hi], poles: main.plot.slice(0, 400), clusters: finding },
+      plot: { segment: [lo, hi], poles: main.plot.slice(0, 400), clusters: finding, detection_power: power },
+      verdict, confidence: round(confidence),
     };
     return { finding, evidence };
   },
