@@ -93,22 +93,22 @@ function globalPhysics(f: Base): Claim {
     const aText = a && a.rel < 0.5 ? ` ≈ ${num(a.value)}` : '';
     const uniform = f.translation_invariant.verdict === 'yes' ? 'uniform' : f.translation_invariant.verdict === 'no' ? 'position-dependent' : '';
     if (f.translation_invariant.verdict !== 'inconclusive') use('translation_invariant', conf(f.translation_invariant));
-    const medium = uniform ? `${uniform} conductivity${aText}` : `conductivity${aText}`;
+    const medium = uniform ? `${uniform} conductivity${aText}` : aText ? `conductivity${aText}` : '';
     if (f.oscillation.verdict === 'yes') {
       use('oscillation', conf(f.oscillation));
-      text = `A wave-like (Helmholtz-type) response${f.oscillation.wavenumber !== null ? ` with wavenumber ≈ ${num(f.oscillation.wavenumber, 3)}` : ''}, ${medium}`;
+      text = `A wave-like (Helmholtz-type) response${f.oscillation.wavenumber !== null ? ` with wavenumber ≈ ${num(f.oscillation.wavenumber, 3)}` : ''}${medium ? `, ${medium}` : ''}`;
     } else if (f.screening.verdict === 'yes') {
       use('screening', conf(f.screening));
-      text = `A diffusion process with absorption or decay (reaction–diffusion), ${medium}${f.screening.length !== null ? `, screening length ≈ ${num(f.screening.length)}` : ''}`;
+      text = `A diffusion process with absorption or decay (reaction–diffusion)${medium ? `, ${medium}` : ''}${f.screening.length !== null ? `, screening length ≈ ${num(f.screening.length)}` : ''}`;
     } else if (f.transport.verdict === '+x' || f.transport.verdict === '-x') {
       use('transport', conf(f.transport));
       const pe = typeof f.transport.peclet === 'number' ? ` with Péclet ≈ ${num(f.transport.peclet)}` : '';
-      text = `A transport-dominated (advection–diffusion) process moving toward ${f.transport.verdict}${pe}, ${medium}`;
+      text = `A transport-dominated (advection–diffusion) process moving toward ${f.transport.verdict}${pe}${medium ? `, ${medium}` : ''}`;
     } else {
       if (f.self_adjoint.verdict === 'yes') use('self_adjoint', conf(f.self_adjoint));
       if (f.oscillation.verdict === 'no') use('oscillation', conf(f.oscillation));
       if (f.screening.verdict === 'no') use('screening', conf(f.screening));
-      text = `A diffusion process with ${medium}`;
+      text = medium ? `A diffusion process with ${medium}` : 'A diffusion process';
     }
   }
   if (!ev.length) c = 0.3; // nothing was decided: a weak default description
@@ -139,7 +139,8 @@ function contradictions(f: Base, claim: Claim): { say: string; strength: number 
   }
   const b = termMean(f, 'advection');
   if (b && sig.includes('advection') && (tr === '+x' || tr === '-x') && Math.sign(b.value) !== (tr === '+x' ? 1 : -1)) out.push({ say: `the fitted advection coefficient points the other way from the transport verdict (${tr})`, strength: conf(f.transport) });
-  if (!has('self_adjoint') && f.self_adjoint.verdict === 'no' && tr === 'none') out.push({ say: 'the kernel is not self-adjoint, yet no net transport direction was found', strength: conf(f.self_adjoint) * 0.5 });
+  // a one-way coupling of fields breaks the symmetry by itself, without any transport
+  if (!has('self_adjoint') && f.self_adjoint.verdict === 'no' && tr === 'none' && f.coupling.verdict !== 'one-way') out.push({ say: 'the kernel is not self-adjoint, yet no net transport direction was found', strength: conf(f.self_adjoint) * 0.5 });
   return out;
 }
 

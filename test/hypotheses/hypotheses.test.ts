@@ -132,3 +132,19 @@ describe('buildHypotheses: structural verdicts are not hidden by one physics sta
     expect(op.statement).toContain('second- and fourth-order local models fit the kernel about equally (the best local model leaves 51 %');
   });
 });
+
+describe('buildHypotheses: systems wording', () => {
+  it('a one-way coupled system is not contradicted by its own asymmetry, and no empty conductivity is written', () => {
+    const h = buildHypotheses(base({
+      components: { in: 2, out: 2 },
+      coupling: { verdict: 'one-way', matrix: [[1, 0], [0.26, 1]], confidence: 0.9 },
+      self_adjoint: { verdict: 'no', defect: 0.3, noise_floor: 0.01, confidence: 0.95 },
+      transport: { verdict: 'none', direction: null, confidence: 0.9 },
+      translation_invariant: { verdict: 'inconclusive', defect: 0.01, confidence: 0.5 },
+      operator: { expression: 'not estimated: local coefficients are fitted for scalar kernels only (this is a coupled system)', terms: [], reliable: false },
+    }));
+    for (const x of h) expect(x.caveats ?? []).not.toContain('Contradicting evidence: the kernel is not self-adjoint, yet no net transport direction was found.');
+    expect(h.some((x) => /with conductivity\.$/.test(x.statement))).toBe(false);
+    expect(h.find((x) => x.evidence.includes('coupling'))!.statement).toBe('A one-way coupled system: field 1 drives field 2 (relative strength 0.26).');
+  });
+});
