@@ -12,6 +12,12 @@
  * intercept per sensor, profiled out by centring each sensor's data over its measured experiments.
  * The sign features are prefix sums over the sorted forcing points, so missing values, distinct
  * sensor/actuator points and several components cost nothing extra.
+ *
+ * Oscillatory enrichment: for an operator with constant leading behaviour of wave type, A and B lie in
+ * span{cos ωx, sin ωx} ⊗ span{cos ωs, sin ωs} (G = u1(x<) u2(x>)/W with trigonometric u1, u2), which a
+ * degree-penalised polynomial basis represents only with many heavily penalised coefficients. The basis
+ * may therefore be [cos ωx, sin ωx, q_0, …, q_{K−3}] with ω chosen by GCV (path1d.ts); GCV also decides
+ * whether the enriched or the plain Legendre basis is used, so nothing here assumes a wave operator.
  */
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, matmulTN } from '../linalg/dense.js';
@@ -35,9 +41,63 @@ export interface KinkSetup {
   /** per (component, sensor): mean feature row over measured experiments (F) and mean response */
   xbar: Float64Array; // (cOut·nOut) × F
   ubar: Float64Array; // cOut·nOut
-  /** cross-validation folds over experiments (fold index per experiment) and per-(row, fold) sums of the
-   *  globally centred features y = x − x̄ and responses v = u − ū over the fold's measured experiments */
-  folds: { count: number; of: Int32Array; Syy: Float64Array; Sy: Float64Array; Syv: Float64Array; Sv: Float64Array; Svv: Float64Array; n: Int32Array } | null;
+  /** penalty degree of each basis column (Legendre: its degree) */
+  degree: Float64Array;
+  /** frequency of the oscillatory columns, or null for the plain Legendre basis */
+  omega: number | null;
+}
+
+/** A basis of size Kmax for both sides of the model, with the penalty degree of each column. */
+export interface KinkBasis {
+  Phi: Mat;
+  Psi: Mat;
+  degree: Float64Array;
+  omega: number | null;
+}
+
+/** Orthonormal Legendre polynomials q_0..q_{Kmax−1} on the study's interval. */
+export function legendreKinkBasis(prep: Prepared, Kmax: number): KinkBasis {
+  const [lo, hi] = prep.box[0]!;
+  return {
+    Phi: legendreBasis(prep.pointsOut.data, Kmax, lo, hi), Psi: legendreBasis(prep.pointsIn.data, Kmax, lo, hi),
+    degree: Float64Array.from({ length: Kmax }, (_, a) => a), omega: null,
+  };
+}
+
+/** The first K columns of a basis (the nested model of size K). */
+export function truncateBasis(b: KinkBasis, K: number): KinkBasis {
+  const cut = (M: Mat): Mat => {
+    const out = zeros(M.rows, K);
+    for (let i = 0; i < M.rows; i++) for (let a = 0; a < K; a++) out.data[i * K + a] = M.data[i * M.cols + a]!;
+    return out;
+  };
+  return { Phi: cut(b.Phi), Psi: cut(b.Psi), degree: b.degree.slice(0, K), omega: b.omega };
+}
+
+/** Penalty degree of the oscillatory pair (a prior choice: penalised like a linear function). */
+export const OSCILLATORY_DEGREE = 1;
+
+/**
+ * [c(x), s(x), q_0, …, q_{Kmax−3}] with c, s = √2 cos(ω(x − lo)), √2 sin(ω(x − lo)) (unit mean square over
+ * the interval up to O(1/(ωL))): the oscillatory pair comes first, so every nested size contains it.
+ */
+export function oscillatoryKinkBasis(prep: Prepared, Kmax: number, omega: number): KinkBasis {
+  const [lo, hi] = prep.box[0]!;
+  const mk = (x: Float64Array): Mat => {
+    const L = legendreBasis(x, Kmax - 2, lo, hi);
+    const out = zeros(x.length, Kmax);
+    for (let i = 0; i < x.length; i++) {
+      const t = omega * (x[i]! - lo);
+      out.data[i * Kmax] = Math.SQRT2 * Math.cos(t);
+      out.data[i * Kmax + 1] = Math.SQRT2 * Math.sin(t);
+      for (let a = 0; a < Kmax - 2; a++) out.data[i * Kmax + 2 + a] = L.data[i * (Kmax - 2) + a]!;
+    }
+    return out;
+  };
+  const degree = new Float64Array(Kmax);
+  degree[0] = OSCILLATORY_DEGREE; degree[1] = OSCILLATORY_DEGREE;
+  for (let a = 2; a < Kmax; a++) degree[a] = a - 2;
+  return { Phi: mk(prep.pointsOut.data), Psi: mk(prep.pointsIn.data), degree, omega };
 }
 
 /**
@@ -96,21 +156,15 @@ export function sweepFeatures(prep: Prepared, Psi: Mat, K: number, cb: (i: numbe
 }
 
 /** Centre each sensor's data over its measured experiments and store the per-sensor Gram matrices at Kmax. */
-export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][], foldOf: Int32Array | null = null, nFolds = 0): KinkSetup {
+export function setupKink(prep: Prepared, basis: KinkBasis, measuredSets: number[][]): KinkSetup {
   const { nOut, cOut, cIn } = prep;
-  const [lo, hi] = prep.box[0]!;
-  const Phi = legendreBasis(prep.pointsOut.data, Kmax, lo, hi);
-  const Psi = legendreBasis(prep.pointsIn.data, Kmax, lo, hi);
+  const { Phi, Psi } = basis;
+  const Kmax = Phi.cols;
   const F = 2 * Kmax * cIn;
   const nc = cOut * nOut;
   const rowQ = new Float64Array(nc * F * F), rowR = new Float64Array(nc * F), rowYY = new Float64Array(nc), rowN = new Int32Array(nc);
   const xbar = new Float64Array(nc * F), ubar = new Float64Array(nc);
   const colsOut = nOut * cOut;
-  const folds = foldOf ? {
-    count: nFolds, of: foldOf,
-    Syy: new Float64Array(nc * nFolds * F * F), Sy: new Float64Array(nc * nFolds * F), Syv: new Float64Array(nc * nFolds * F),
-    Sv: new Float64Array(nc * nFolds), Svv: new Float64Array(nc * nFolds), n: new Int32Array(nc * nFolds),
-  } : null;
   sweepFeatures(prep, Psi, Kmax, (i, X) => {
     for (let p = 0; p < cOut; p++) {
       const c = p * nOut + i;
@@ -134,37 +188,16 @@ export function setupKink(prep: Prepared, Kmax: number, measuredSets: number[][]
       rowQ.set(matmulTN(Xc, Xc).data, c * F * F);
       rowYY[c] = yy;
       rowN[c] = nJ;
-      if (folds) {
-        J.forEach((j, n) => {
-          const b = c * nFolds + folds.of[j]!;
-          const v = prep.U.data[j * colsOut + c]! - ub;
-          folds.n[b]++; folds.Sv[b] += v; folds.Svv[b] += v * v;
-          const yo = n * F, so = b * F * F;
-          for (let f = 0; f < F; f++) {
-            const y = Xc.data[yo + f]!;
-            folds.Sy[b * F + f] += y; folds.Syv[b * F + f] += y * v;
-            if (y === 0) continue;
-            const o = so + f * F;
-            for (let g = f; g < F; g++) folds.Syy[o + g] += y * Xc.data[yo + g]!;
-          }
-        });
-      }
     }
   });
-  if (folds) {
-    for (let b = 0; b < nc * nFolds; b++) {
-      const so = b * F * F;
-      for (let f = 0; f < F; f++) for (let g = 0; g < f; g++) folds.Syy[so + f * F + g] = folds.Syy[so + g * F + f]!;
-    }
-  }
-  return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar, folds };
+  return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar, degree: basis.degree, omega: basis.omega };
 }
 
 /**
  * The full tensor model's normal system for output component p at basis size K (layout of
  * `kinkIndex(K, …)`), assembled from the per-sensor Grams: M = Σ_i (φ_i φ_iᵀ) ⊗ Q_i.
  */
-export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: number, leaveOut = -1): NormalSystem {
+export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: number): NormalSystem {
   const { nOut, cIn } = prep;
   const { Kmax, F } = setup;
   const Fk = 2 * K * cIn;
@@ -180,12 +213,8 @@ export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: num
   const AphiT = zeros(np, nOut), Bq = zeros(nOut, Fk * Fk);
   for (let i = 0; i < nOut; i++) {
     const c = p * nOut + i;
-    let Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F), rr = setup.rowR.subarray(c * F, (c + 1) * F);
-    let yyc = setup.rowYY[c]!, nc = setup.rowN[c]!;
-    if (leaveOut >= 0 && setup.folds) {
-      const t = trainingStats(setup, c, leaveOut);
-      Q = t.Q; rr = t.r; yyc = t.yy; nc = t.n;
-    }
+    const Q = setup.rowQ.subarray(c * F * F, (c + 1) * F * F), rr = setup.rowR.subarray(c * F, (c + 1) * F);
+    const yyc = setup.rowYY[c]!, nc = setup.rowN[c]!;
     const bo = i * Fk * Fk;
     for (let f = 0; f < Fk; f++) { const so = sel[f]! * F; for (let g = 0; g < Fk; g++) Bq.data[bo + f * Fk + g] = Q[so + sel[g]!]!; }
     yy += yyc;
@@ -204,29 +233,6 @@ export function assembleFull(setup: KinkSetup, prep: Prepared, p: number, K: num
     }
   });
   return { M, r, yy, nObs };
-}
-
-/**
- * Centred Gram of row c over its measured experiments outside fold `fo`:
- * with y = x − x̄ (global mean), Σ_T (y − ȳ_T)(y − ȳ_T)ᵀ = Q − S_f,yy − S_f S_fᵀ / n_T, since Σ_T y = −S_f.
- */
-export function trainingStats(setup: KinkSetup, c: number, fo: number): { Q: Float64Array; r: Float64Array; yy: number; n: number; ybar: Float64Array; vbar: number } {
-  const F = setup.F, fd = setup.folds!;
-  const b = c * fd.count + fo;
-  const nT = setup.rowN[c]! - fd.n[b]!;
-  const Q = new Float64Array(setup.rowQ.subarray(c * F * F, (c + 1) * F * F));
-  const r = new Float64Array(setup.rowR.subarray(c * F, (c + 1) * F));
-  const Sy = fd.Sy.subarray(b * F, (b + 1) * F), Sv = fd.Sv[b]!;
-  const ybar = new Float64Array(F);
-  if (nT <= 0) return { Q: new Float64Array(F * F), r: new Float64Array(F), yy: 0, n: 0, ybar, vbar: 0 };
-  for (let f = 0; f < F; f++) {
-    ybar[f] = -Sy[f]! / nT;
-    r[f] -= fd.Syv[b * F + f]! + (Sy[f]! * Sv) / nT;
-    const o = f * F, so = b * F * F + o;
-    for (let g = 0; g < F; g++) Q[o + g] -= fd.Syy[so + g]! + (Sy[f]! * Sy[g]!) / nT;
-  }
-  const yy = setup.rowYY[c]! - fd.Svv[b]! - (Sv * Sv) / nT;
-  return { Q, r, yy, n: nT, ybar, vbar: -Sv / nT };
 }
 
 /** Embed θ of the layout at K into the layout at Kmax. */
@@ -280,14 +286,16 @@ export function symmetricMap(Kmax: number, K: number): ParamMap {
 }
 
 /**
- * Penalty weight of coefficient (a, b): ((1 + a)(1 + b))^order — a smoothness prior on A and B — times
- * `jump` for the D (sign) part: the relative prior size of the jump part is a hyper-parameter (GCV).
+ * Penalty weight of coefficient (a, b): ((1 + d_a)(1 + d_b))^order with d the columns' penalty degrees
+ * (Legendre: d_a = a) — a smoothness prior on A and B — times `jump` for the D (sign) part: the relative
+ * prior size of the jump part is a hyper-parameter (GCV).
  */
-export function penaltyWeights(Kmax: number, cIn: number, order: number, jump = 1): Float64Array {
+export function penaltyWeights(Kmax: number, cIn: number, order: number, jump = 1, degree?: Float64Array): Float64Array {
+  const d = (a: number) => (degree ? degree[a]! : a);
   const F = 2 * Kmax * cIn;
   const w = new Float64Array(Kmax * F);
   for (let a = 0; a < Kmax; a++) for (let q = 0; q < cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < Kmax; b++) {
-    w[kinkIndex(Kmax, cIn, a, q, part, b)] = Math.pow((1 + a) * (1 + b), order) * (part ? jump : 1);
+    w[kinkIndex(Kmax, cIn, a, q, part, b)] = Math.pow((1 + d(a)) * (1 + d(b)), order) * (part ? jump : 1);
   }
   return w;
 }
@@ -329,13 +337,13 @@ export function kinkCandidates(Kmax: number): number[] {
  * Choose (K, penalty order, λ) for one output component by GCV. Sizes are tried in increasing order
  * and the search stops once GCV has risen for two sizes in a row (common practice for nested models).
  */
-export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, orders: number[]): KinkChoice {
+export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, orders: number[], degree?: Float64Array, sizes = kinkCandidates(Kmax)): KinkChoice {
   const tried: KinkChoice['tried'] = [];
   let best: KinkChoice | null = null;
   for (const order of orders) {
-    const Pfull = penaltyWeights(Kmax, cIn, order);
+    const Pfull = penaltyWeights(Kmax, cIn, order, 1, degree);
     let rises = 0, prev = Infinity;
-    for (const K of kinkCandidates(Kmax)) {
+    for (const K of sizes) {
       const map = constraint === 'symmetric' ? symmetricMap(Kmax, K) : unconstrainedMap(Kmax, cIn, K);
       const red = reduceSystem(sys, Pfull, map);
       const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
@@ -349,7 +357,7 @@ export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constra
   const b0 = best!;
   const map = constraint === 'symmetric' ? symmetricMap(Kmax, b0.K) : unconstrainedMap(Kmax, cIn, b0.K);
   for (const jump of [0.1, 10]) {
-    const red = reduceSystem(sys, penaltyWeights(Kmax, cIn, b0.order, jump), map);
+    const red = reduceSystem(sys, penaltyWeights(Kmax, cIn, b0.order, jump, degree), map);
     const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
     tried.push({ K: b0.K, order: b0.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof, jump });
     if (g.gcv < best!.gcv.gcv) best = { K: b0.K, order: b0.order, jump, gcv: g, tried };
@@ -372,8 +380,8 @@ export interface KinkFit {
   gcv: GcvPoint;
 }
 
-export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: KinkChoice, constraint: Constraint): KinkFit {
-  const Pfull = penaltyWeights(Kf, cIn, choice.order, choice.jump ?? 1);
+export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: KinkChoice, constraint: Constraint, degree?: Float64Array): KinkFit {
+  const Pfull = penaltyWeights(Kf, cIn, choice.order, choice.jump ?? 1, degree);
   const map = constraint === 'symmetric' ? symmetricMap(Kf, choice.K) : unconstrainedMap(Kf, cIn, choice.K);
   const red = reduceSystem(sys, Pfull, map);
   const solver = new RidgeSolver(red.sys, red.P, choice.gcv.lambda);
@@ -394,11 +402,11 @@ export function reduceVec(map: ParamMap, v: Float64Array): Float64Array {
   return out;
 }
 
-/** Row coefficient vector θ_i = Σ_a φ_a(x_i) Θ_a (length F) for sensor i. */
-export function rowCoefficients(setup: KinkSetup, theta: Float64Array, i: number, out: Float64Array): Float64Array {
+/** Row coefficient vector θ_i = Σ_a φ_a(x_i) Θ_a (length F) for sensor i; Θ_a is zero for a ≥ K. */
+export function rowCoefficients(setup: KinkSetup, theta: Float64Array, i: number, out: Float64Array, K = setup.Kmax): Float64Array {
   const { Kmax, F } = setup;
   out.fill(0);
-  for (let a = 0; a < Kmax; a++) {
+  for (let a = 0; a < K; a++) {
     const pa = setup.Phi.data[i * Kmax + a]!;
     if (pa === 0) continue;
     const o = a * F;
@@ -407,15 +415,15 @@ export function rowCoefficients(setup: KinkSetup, theta: Float64Array, i: number
   return out;
 }
 
-/** Write the kernel rows of output component p into G ((nOut·cOut) × (nIn·cIn)). */
-export function kernelRows(prep: Prepared, setup: KinkSetup, theta: Float64Array, p: number, G: Mat): void {
+/** Write the kernel rows of output component p into G ((nOut·cOut) × (nIn·cIn)); θ is zero beyond size K. */
+export function kernelRows(prep: Prepared, setup: KinkSetup, theta: Float64Array, p: number, G: Mat, K = setup.Kmax): void {
   const { nIn, nOut, cIn } = prep;
   const { Kmax, F, Psi } = setup;
   const th = new Float64Array(F);
   const s = prep.pointsIn.data, x = prep.pointsOut.data;
   const cols = nIn * cIn;
   for (let i = 0; i < nOut; i++) {
-    rowCoefficients(setup, theta, i, th);
+    rowCoefficients(setup, theta, i, th, K);
     const ro = (p * nOut + i) * cols;
     for (let q = 0; q < cIn; q++) {
       const base = q * 2 * Kmax;
@@ -423,7 +431,7 @@ export function kernelRows(prep: Prepared, setup: KinkSetup, theta: Float64Array
         const sg = Math.sign(x[i]! - s[k]!);
         let v = 0;
         const po = k * Kmax;
-        for (let b = 0; b < Kmax; b++) v += Psi.data[po + b]! * (th[base + b]! + sg * th[base + Kmax + b]!);
+        for (let b = 0; b < K; b++) v += Psi.data[po + b]! * (th[base + b]! + sg * th[base + Kmax + b]!);
         G.data[ro + q * nIn + k] = v;
       }
     }

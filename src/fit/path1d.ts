@@ -12,11 +12,11 @@ import { zeros } from '../linalg/dense.js';
 import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
-  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
-  rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights, trainingStats,
-  symmetricMap, unconstrainedMap, embedTheta,
+  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
+  rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
+  symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
 } from './kink1d.js';
-import { RidgeSolver, type NormalSystem } from './spectral.js';
+import { RidgeSolver, type NormalSystem, ridgeSpectrum, gcvMinimise } from './spectral.js';
 import { fitPathTranslation } from './translation1d.js';
 import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
 
@@ -39,14 +39,14 @@ function homogeneousOf(prep: Prepared, setup: KinkSetup, thetas: Float64Array[],
 }
 
 /**
- * Refit with the chosen (K, penalty, constraint) on a subset of the data (a setup over other experiments, or
- * leaving out a fold), λ scaled with the amount of data; θ returned in the Kmax layout.
+ * Refit with the chosen (K, penalty, constraint) on a subset of the data (a setup over other experiments),
+ * λ scaled with the amount of data; θ returned in the Kmax layout.
  */
-function solveAtChosenSize(setup: KinkSetup, prep: Prepared, p: number, f: KinkFit, Kf: number, nObsAll: number, leaveOut: number): { theta: Float64Array; rss: number; nObs: number } {
+function solveAtChosenSize(setup: KinkSetup, prep: Prepared, p: number, f: KinkFit, Kf: number, nObsAll: number): { theta: Float64Array; rss: number; nObs: number } {
   const K = f.K;
-  const sys = assembleFull(setup, prep, p, K, leaveOut);
+  const sys = assembleFull(setup, prep, p, K);
   const map = f.constraint === 'symmetric' ? symmetricMap(K, K) : unconstrainedMap(K, prep.cIn, K);
-  const red = reduceSystem(sys, penaltyWeights(K, prep.cIn, f.order, f.jump), map);
+  const red = reduceSystem(sys, penaltyWeights(K, prep.cIn, f.order, f.jump, setup.degree), map);
   const solver = new RidgeSolver(red.sys, red.P, (f.lambda * sys.nObs) / Math.max(1, nObsAll));
   const eta = solver.solveVec(red.sys.r);
   let quad = 0, lin = 0;
@@ -54,6 +54,82 @@ function solveAtChosenSize(setup: KinkSetup, prep: Prepared, p: number, f: KinkF
   for (let a = 0; a < n; a++) { lin += eta[a]! * red.sys.r[a]!; let t = 0; for (let b = 0; b < n; b++) t += red.sys.M.data[a * n + b]! * eta[b]!; quad += t * eta[a]!; }
   return { theta: embedTheta(expand(map, eta, sys.r.length), K, Kf, prep.cIn), rss: Math.max(0, red.sys.yy - 2 * lin + quad), nObs: red.sys.nObs };
 }
+
+/** Size of the models compared when screening a frequency (the oscillatory pair and 4 polynomials). */
+const SCAN_SIZE = 6;
+/** Candidate frequencies (local maxima of the pilot's energy fraction) screened by GCV. */
+const PILOT_CANDIDATES = 3;
+
+/**
+ * Candidate frequencies from the plain fit Ĝ: away from its diagonal each column of a Green's function
+ * solves the homogeneous equation, which for a wave-type operator is spanned by cos ωx, sin ωx. For each ωL
+ * on a grid (step 0.05, up to half the points' Nyquist limit), the column segments on either side of the
+ * diagonal are projected onto {cos ωx, sin ωx} by least squares (variable projection: Golub & Pereyra,
+ * SIAM J. Numer. Anal. 1973); the local minima of the relative residual, best first.
+ */
+export function pilotFrequencies(prep: Prepared, G: Mat, count: number): number[] {
+  const [lo, hi] = prep.box[0]!;
+  const L = hi - lo;
+  const x = prep.pointsOut.data, s = prep.pointsIn.data;
+  const nOut = prep.nOut, nIn = prep.nIn, cols = G.cols;
+  // segments: the columns of a subsample of input points (≤ 16 per component pair), outputs more than 2 spacings away
+  const gap = (2 * L) / Math.max(2, nOut - 1);
+  const segs: { rows: number[]; vals: Float64Array }[] = [];
+  let total = 0;
+  const step = Math.max(1, Math.floor(nIn / 16));
+  for (let p = 0; p < prep.cOut; p++) for (let q = 0; q < prep.cIn; q++) for (let k = 0; k < nIn; k += step) {
+    for (const side of [-1, 1]) {
+      const rows: number[] = [];
+      for (let i = 0; i < nOut; i++) if (side * (x[i]! - s[k]!) > gap) rows.push(i);
+      if (rows.length < 6) continue;
+      const vals = Float64Array.from(rows, (i) => G.data[(p * nOut + i) * cols + q * nIn + k]!);
+      for (const v of vals) total += v * v;
+      segs.push({ rows, vals });
+    }
+  }
+  if (!(total > 0)) return [];
+  const top = Math.min(SCAN_TOP_OMEGA_L, (Math.PI * (nOut - 1)) / 4);
+  const grid: { w: number; r: number }[] = [];
+  const cx = new Float64Array(nOut), sx = new Float64Array(nOut);
+  for (let wl = 0.5; wl <= top + 1e-9; wl += 0.2) {
+    for (let i = 0; i < nOut; i++) { const t = (wl * (x[i]! - lo)) / L; cx[i] = Math.cos(t); sx[i] = Math.sin(t); }
+    let res = 0;
+    for (const sg of segs) {
+      let a11 = 0, a12 = 0, a22 = 0, b1 = 0, b2 = 0, yy = 0;
+      sg.rows.forEach((i, m) => { const c = cx[i]!, n = sx[i]!, y = sg.vals[m]!; a11 += c * c; a12 += c * n; a22 += n * n; b1 += c * y; b2 += n * y; yy += y * y; });
+      const det = a11 * a22 - a12 * a12;
+      // residual = yy − bᵀ A⁻¹ b (a rank-deficient pair, at tiny ω on a short segment, keeps one function)
+      const fitted = det > 1e-10 * a11 * a22 ? (a22 * b1 * b1 - 2 * a12 * b1 * b2 + a11 * b2 * b2) / det : Math.max(a11 > 0 ? (b1 * b1) / a11 : 0, a22 > 0 ? (b2 * b2) / a22 : 0);
+      res += Math.max(0, yy - fitted);
+    }
+    grid.push({ w: wl, r: res / total });
+  }
+  const minima: { w: number; r: number }[] = [];
+  grid.forEach((g, i) => {
+    if (i > 0 && i < grid.length - 1 && g.r <= grid[i - 1]!.r && g.r < grid[i + 1]!.r) {
+      const r0 = grid[i - 1]!.r, r2 = grid[i + 1]!.r, h = g.w - grid[i - 1]!.w;
+      const den = r0 - 2 * g.r + r2;
+      minima.push({ w: den > 0 ? g.w + (h * (r0 - r2)) / (2 * den) : g.w, r: g.r });
+    }
+  });
+  return minima.sort((a, b) => a.r - b.r).slice(0, count).map((g) => g.w / L);
+}
+
+/** GCV score (Σ over output components of GCV × observations) of the size-K oscillatory basis at frequency ω. */
+function oscillatoryScore(prep: Prepared, sets: number[][], constraint: Constraint, K: number, omega: number): number {
+  const st = setupKink(prep, oscillatoryKinkBasis(prep, K, omega), sets);
+  const map = constraint === 'symmetric' ? symmetricMap(K, K) : unconstrainedMap(K, prep.cIn, K);
+  let total = 0;
+  for (let p = 0; p < prep.cOut; p++) {
+    const sys = assembleFull(st, prep, p, K);
+    const red = reduceSystem(sys, penaltyWeights(K, prep.cIn, PENALTY_ORDER, 1, st.degree), map);
+    total += gcvMinimise(ridgeSpectrum(red.sys, red.P)).gcv * sys.nObs;
+  }
+  return total;
+}
+
+/** Highest ωL considered: 48 ≈ 7.6 periods over the interval. */
+const SCAN_TOP_OMEGA_L = 48;
 
 export function fitPath1d(prep: Prepared, sets: number[][], o: {
   constraint: Constraint; rng: Rng; replicates: number; sigmaKnown?: number; progress: (m: string) => void; scaling: boolean;
@@ -71,21 +147,50 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     constraint = 'none';
   }
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);
-  const setup = setupKink(prep, Kf, sets);
-  const fits: KinkFit[] = [];
-  const choices: KinkChoice[] = [];
-  const systems: NormalSystem[] = [];
-  for (let p = 0; p < prep.cOut; p++) {
-    const sys = assembleFull(setup, prep, p, Kf);
-    systems.push(sys);
-    o.progress(`choosing basis size and regularisation by GCV${prep.cOut > 1 ? ` (output component ${p + 1})` : ''}`);
-    const choice = chooseKink(sys, Kf, prep.cIn, constraint, [PENALTY_ORDER]);
-    fits.push(solveKink(sys, Kf, prep.cIn, choice, constraint));
-    choices.push(choice);
+  const fitBasis = (b: KinkBasis, sizes: number[]) => {
+    const st = setupKink(prep, b, sets);
+    const fs: KinkFit[] = [], cs: KinkChoice[] = [], ss: NormalSystem[] = [];
+    let score = 0;
+    for (let p = 0; p < prep.cOut; p++) {
+      const sys = assembleFull(st, prep, p, Kf);
+      ss.push(sys);
+      o.progress(`choosing basis size and regularisation by GCV${prep.cOut > 1 ? ` (output component ${p + 1})` : ''}${b.omega !== null ? ' (oscillatory basis)' : ''}`);
+      const choice = chooseKink(sys, Kf, prep.cIn, constraint, [PENALTY_ORDER], b.degree, sizes);
+      fs.push(solveKink(sys, Kf, prep.cIn, choice, constraint, b.degree));
+      cs.push(choice);
+      score += choice.gcv.gcv * sys.nObs;
+    }
+    return { basis: b, setup: st, fits: fs, choices: cs, systems: ss, score };
+  };
+  let chosen = fitBasis(legendreKinkBasis(prep, Kf), kinkCandidates(Kf));
+  // oscillatory enrichment: frequency by a GCV scan at a small size; the enriched basis replaces the plain
+  // one only when it beats it at that size and again at its own GCV-chosen size
+  const plainScore = chosen.score;
+  let oscillatory: { omega: number; small: number; plainSmall: number; full: number | null } | null = null;
+  if (Kf >= 8 && prep.box[0]![1] > prep.box[0]![0]) {
+    let scan = { omega: NaN, score: Infinity };
+    const pilot = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn);
+    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, chosen.setup, chosen.fits[p]!.theta, p, pilot, chosen.fits[p]!.K);
+    for (const w of pilotFrequencies(prep, pilot, PILOT_CANDIDATES)) {
+      const v = oscillatoryScore(prep, sets, constraint, SCAN_SIZE, w);
+      if (v < scan.score) scan = { omega: w, score: v };
+    }
+    const plainSmall = chosen.choices.reduce((acc, c, p) => {
+      const t = c.tried.find((q) => q.K === SCAN_SIZE && q.jump === undefined);
+      return acc + (t ? t.gcv : Infinity) * chosen.systems[p]!.nObs;
+    }, 0);
+    oscillatory = { omega: scan.omega, small: scan.score, plainSmall, full: null };
+    if (Number.isFinite(scan.omega) && scan.score < plainSmall) {
+      o.progress(`oscillatory basis, ω = ${scan.omega.toPrecision(4)}: full GCV search`);
+      const enriched = fitBasis(oscillatoryKinkBasis(prep, Kf, scan.omega), [2, ...kinkCandidates(Kf)]);
+      oscillatory.full = enriched.score;
+      if (enriched.score < chosen.score) chosen = enriched;
+    }
   }
+  const { basis, setup, fits, choices, systems } = chosen;
   const thetas = fits.map((f) => f.theta);
   const G = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn);
-  for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, thetas[p]!, p, G);
+  for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, thetas[p]!, p, G, fits[p]!.K);
   const uh = new Float64Array(prep.nOut * prep.cOut);
   homogeneousOf(prep, setup, thetas, uh);
   const sigma2 = fits.map((f, p) => f.gcv.rss / Math.max(1, systems[p]!.nObs - f.gcv.dof));
@@ -111,10 +216,17 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   });
   const F = setup.F;
   const g = new Float64Array(F);
+  const active = fits.map((f) => {
+    const a: number[] = [];
+    for (let q = 0; q < prep.cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < f.K; b++) a.push(q * 2 * Kf + part * Kf + b);
+    return Int32Array.from(a);
+  });
   sweepFeatures(prep, setup.Psi, Kf, (i, X) => {
     for (let p = 0; p < prep.cOut; p++) {
       const c = p * prep.nOut + i;
       const phi = setup.Phi.data.subarray(i * Kf, (i + 1) * Kf);
+      // only the coefficients of the chosen size enter the refit (θ entries beyond it are zero)
+      const act = active[p]!, Kp = fits[p]!.K, nA = act.length;
       const accumulate = (J: number[], e: Float64Array, target: Float64Array): number => {
         let m = 0;
         for (const j of J) m += e[j * colsOut + c]!;
@@ -123,9 +235,9 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
         for (const j of J) {
           const v = e[j * colsOut + c]! - m;
           const xo = j * F;
-          for (let f = 0; f < F; f++) g[f] += X[xo + f]! * v;
+          for (let u = 0; u < nA; u++) { const f = act[u]!; g[f] += X[xo + f]! * v; }
         }
-        for (let a = 0; a < Kf; a++) { const pa = phi[a]!; for (let f = 0; f < F; f++) target[a * F + f] += pa * g[f]!; }
+        for (let a = 0; a < Kp; a++) { const pa = phi[a]!; for (let u = 0; u < nA; u++) { const f = act[u]!; target[a * F + f] += pa * g[f]!; } }
         return m;
       };
       for (let r = 0; r < R; r++) {
@@ -152,7 +264,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     if (smaller.length < 2) return;
     const [t1, t2] = smaller as [typeof smaller[0], typeof smaller[0]];
     const sysP = systems[p]!;
-    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint).theta;
+    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint, setup.degree).theta;
     const G1 = zeros(prep.nOut, prep.nIn * prep.cIn), G2 = zeros(prep.nOut, prep.nIn * prep.cIn), G0 = zeros(prep.nOut, prep.nIn * prep.cIn);
     const put = (th: Float64Array, M: Mat) => { const full = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn); kernelRows(prep, setup, th, p, full); M.data.set(full.data.subarray(p * prep.nOut * M.cols, (p + 1) * prep.nOut * M.cols)); };
     put(thetas[p]!, G0); put(at(t1), G1); put(at(t2), G2);
@@ -184,7 +296,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       return expand(f.map, e, P0);
     });
     const Gr = zeros(G.rows, G.cols);
-    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr);
+    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr, fits[p]!.K);
     // model-size uncertainty: ± e_K / d1 times the difference to the next smaller size (antithetic signs,
     // so the second moment is exact), so that the replicates' spread also carries the truncation error
     for (const td of truncDirs) {
@@ -196,7 +308,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     const u = new Float64Array(colsOut);
     for (let p = 0; p < prep.cOut; p++) for (let i = 0; i < prep.nOut; i++) {
       const c = p * prep.nOut + i;
-      rowCoefficients(setup, tr[p]!, i, th);
+      rowCoefficients(setup, tr[p]!, i, th, fits[p]!.K);
       let s = 0;
       for (let f = 0; f < F; f++) s += setup.xbar[c * F + f]! * th[f]!;
       u[c] = setup.ubar[c]! + meanEps[r]![c]! - s;
@@ -215,26 +327,29 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const lowSets = sets.map((J) => J.filter((j) => low[j]));
   if (o.scaling && prep.N >= 16 && lowSets.every((J) => J.length >= 2)) {
     o.progress('scaling test: refit on the experiments with the smaller responses');
-    const sl = setupKink(prep, Kf, lowSets);
+    // the refit needs only the chosen sizes: a setup truncated to the largest of them
+    const Ks = Math.max(...fits.map((f) => f.K));
+    const sl = setupKink(prep, truncateBasis(basis, Ks), lowSets);
+    const Fs = sl.F, thRowS = new Float64Array(Fs);
     const thL: Float64Array[] = [];
     let rssL = 0, nL = 0, dofL = 0;
     fits.forEach((f, p) => {
-      const z = solveAtChosenSize(sl, prep, p, f, Kf, systems[p]!.nObs, -1);
+      const z = solveAtChosenSize(sl, prep, p, f, Ks, systems[p]!.nObs);
       rssL += z.rss; nL += z.nObs; dofL += f.gcv.dof;
       thL.push(z.theta);
     });
     const s2L = rssL / Math.max(1, nL - dofL);
     const eH = new Float64Array(prep.N), pH = new Float64Array(prep.N), cH = new Float64Array(prep.N);
-    sweepFeatures(prep, setup.Psi, Kf, (i, X) => {
+    sweepFeatures(prep, sl.Psi, Ks, (i, X) => {
       for (let p = 0; p < prep.cOut; p++) {
         const c = p * prep.nOut + i;
-        rowCoefficients(sl, thL[p]!, i, thRow);
-        const xb = sl.xbar.subarray(c * F, (c + 1) * F);
+        rowCoefficients(sl, thL[p]!, i, thRowS);
+        const xb = sl.xbar.subarray(c * Fs, (c + 1) * Fs);
         for (const j of sets[c]!) {
           if (low[j]) continue;
           let pred = 0;
-          const xo = j * F;
-          for (let f = 0; f < F; f++) pred += (X[xo + f]! - xb[f]!) * thRow[f]!;
+          const xo = j * Fs;
+          for (let f = 0; f < Fs; f++) pred += (X[xo + f]! - xb[f]!) * thRowS[f]!;
           const res = prep.U.data[j * colsOut + c]! - sl.ubar[c]! - pred;
           eH[j] += res * res; pH[j] += pred * pred; cH[j]++;
         }
@@ -271,8 +386,13 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
 
   const f0 = fits[0]!;
   const hyper: Record<string, number | string | boolean> = {
-    basis: 'legendre', basis_size: f0.K, penalty_order: f0.order, jump_penalty_factor: f0.jump, constraint, max_basis_size: Kf,
+    basis: basis.omega === null ? 'legendre' : 'legendre+cos/sin', basis_size: f0.K, penalty_order: f0.order, jump_penalty_factor: f0.jump, constraint, max_basis_size: Kf,
   };
+  if (basis.omega !== null) hyper.frequency = basis.omega;
+  if (oscillatory) {
+    hyper.oscillatory_frequency_scanned = oscillatory.omega;
+    hyper.oscillatory_gcv_ratio = (oscillatory.full ?? NaN) / plainScore;
+  }
   fits.forEach((f, p) => {
     const sfx = prep.cOut > 1 ? `_${p + 1}` : '';
     hyper[`lambda${sfx}`] = f.lambda;
