@@ -84,22 +84,26 @@ export function loadFindings(dirArg: string): LoadedFindings {
     kernel = readKernel(kernelDir);
     const rel = relative(dir, kernelDir);
     for (const f of kernel.files ?? []) files.push({ path: rel ? `${rel}/${f.path}` : f.path, sha256: f.sha256 });
-    homogeneousError = fitHomogeneousError(kernelDir);
+    const fit = fitHomogeneousError(kernelDir);
+    homogeneousError = fit.value;
+    if (fit.file && !files.some((f) => f.path === (rel ? `${rel}/${fit.file!.path}` : fit.file!.path))) files.push({ path: rel ? `${rel}/${fit.file.path}` : fit.file.path, sha256: fit.file.sha256 });
   }
   return { findings: F, kernel, kernelDir, files, homogeneousError };
 }
 
 /** uncertainty.relative_homogeneous_error of the kernel folder's fit report (kernel.json "fit"), when there is one. */
-function fitHomogeneousError(kernelDir: string): number | null {
+function fitHomogeneousError(kernelDir: string): { value: number | null; file: InputFile | null } {
   try {
     const manifest = JSON.parse(readFileSync(join(kernelDir, 'kernel.json'), 'utf8')) as { fit?: unknown };
-    if (typeof manifest.fit !== 'string') return null;
+    if (typeof manifest.fit !== 'string') return { value: null, file: null };
     const p = join(kernelDir, manifest.fit);
-    if (!existsSync(p)) return null;
-    const fit = JSON.parse(readFileSync(p, 'utf8')) as { uncertainty?: { relative_homogeneous_error?: unknown } };
+    if (!existsSync(p)) return { value: null, file: null };
+    const buf = readFileSync(p);
+    const file = { path: manifest.fit, sha256: sha256File(buf) };
+    const fit = JSON.parse(buf.toString('utf8')) as { uncertainty?: { relative_homogeneous_error?: unknown } };
     const v = fit.uncertainty?.relative_homogeneous_error;
-    return typeof v === 'number' && Number.isFinite(v) && v >= 0 ? v : null;
-  } catch { return null; }
+    return { value: typeof v === 'number' && Number.isFinite(v) && v >= 0 ? v : null, file };
+  } catch { return { value: null, file: null }; }
 }
 
 /**
