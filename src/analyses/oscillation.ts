@@ -16,7 +16,9 @@
 import type { Analysis, AnalysisOutput, Context } from './analysis.js';
 import type { Findings, Kernel, YesNo } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { replicates, decide, sig, domainLength, std } from './util/a_common.js';
+import { replicates, decide, sig, round3, domainLength, std, colocated, EQUIVALENCE_Z } from './util/a_common.js';
+import { normalCdf } from './analysis.js';
+import { kernelSpectrum } from './order.js';
 
 interface Segment { rows: Int32Array; col: number; xc: number }
 
@@ -34,6 +36,8 @@ export interface WaveFit {
 }
 
 export interface LocalWave extends WaveFit {
+  /** the fourth-order family's fit on the same segments */
+  fourth: FourthOrderWave;
   wavenumber: number | null;
   screeningLength: number | null;
   thetaSd: number | null;
@@ -119,11 +123,12 @@ function refine(G: Mat, x: Float64Array, segs: Segment[], p0: number, ks0: numbe
 }
 
 /** Fit (p, θ) on the segments of one matrix; `start` skips the grid search (used for replicates). */
-function fitWave(G: Mat, x: Float64Array, segs: Segment[], kmax: number, start: { p: number; ks?: number }): WaveFit & { ks: number } {
+function fitWave(G: Mat, x: Float64Array, segs: Segment[], kmax: number, start: { p: number; ks?: number; fixP?: boolean }): WaveFit & { ks: number } {
+  const fixP = !!start.fixP;
   const E = energy(G, segs);
   let best: { p: number; ks: number; f: number };
   const dk = (2 * kmax) / 160, dpp = kmax / 20;
-  if (start.ks !== undefined) best = refine(G, x, segs, start.p, start.ks, dpp / 8, dk / 4, 60);
+  if (start.ks !== undefined) best = refine(G, x, segs, start.p, start.ks, fixP ? 0 : dpp / 8, dk / 4, 60);
   else {
     // grid in the signed wavenumber at the starting drift, then a joint local search from the best three
     const top: { p: number; ks: number; f: number }[] = [];
@@ -133,7 +138,7 @@ function fitWave(G: Mat, x: Float64Array, segs: Segment[], kmax: number, start: 
       top.push({ p: start.p, ks, f });
     }
     top.sort((u, v) => u.f - v.f);
-    best = top.slice(0, 3).map((t) => refine(G, x, segs, t.p, t.ks, dpp / 2, dk / 2, 400)).sort((u, v) => u.f - v.f)[0]!;
+    best = top.slice(0, 3).map((t) => refine(G, x, segs, t.p, t.ks, fixP ? 0 : dpp / 2, dk / 2, 400)).sort((u, v) => u.f - v.f)[0]!;
   }
   const theta = toTheta(best.ks);
   const points = segs.reduce((s, g) => s + g.rows.length, 0);
@@ -141,11 +146,95 @@ function fitWave(G: Mat, x: Float64Array, segs: Segment[], kmax: number, start: 
 }
 
 /**
+ * Fourth-order family u⁽⁴⁾ + θ u″ = 0 (a beam under axial load, or any constant-coefficient
+ * fourth-order operator without drift or foundation): solutions {1, t, F₂(θ, t), F₃(θ, t)} with
+ * F₂ = 4 sin²(wt/2)/w² → t² and F₃ = 6(wt − sin wt)/w³ → t³ as θ = w² → 0 (sinh for θ < 0).
+ * It contains the drift-free second-order solutions {cos, sin}, so a Helmholtz or screened
+ * kernel fits it with the same θ. Residual energy of all segments, amplitudes by Gram–Schmidt.
+ */
+function basis4(theta: number, t: number, out: Float64Array): void {
+  const w = Math.sqrt(Math.abs(theta)), u = w * t;
+  out[0] = 1; out[1] = t;
+  if (Math.abs(u) < 0.1) {
+    const u2 = theta * t * t; // signed (wt)²: positive for θ > 0
+    out[2] = t * t * (1 - u2 / 12 + u2 * u2 / 360);
+    out[3] = t * t * t * (1 - u2 / 20 + u2 * u2 / 840);
+  } else if (theta > 0) {
+    const sh = Math.sin(0.5 * u);
+    out[2] = 4 * sh * sh / (w * w);
+    out[3] = 6 * (u - Math.sin(u)) / (w * w * w);
+  } else {
+    const sh = Math.sinh(0.5 * u);
+    out[2] = 4 * sh * sh / (w * w);
+    out[3] = 6 * (Math.sinh(u) - u) / (w * w * w);
+  }
+}
+
+function objective4(G: Mat, x: Float64Array, segs: Segment[], theta: number): number {
+  let res = 0;
+  const f = new Float64Array(4);
+  for (const sg of segs) {
+    const m = sg.rows.length;
+    const Q = new Float64Array(4 * m), y = new Float64Array(m);
+    for (let q = 0; q < m; q++) {
+      const i = sg.rows[q]!;
+      basis4(theta, x[i]! - sg.xc, f);
+      for (let k = 0; k < 4; k++) Q[k * m + q] = f[k]!;
+      y[q] = G.data[i * G.cols + sg.col]!;
+    }
+    let yy = 0;
+    for (let q = 0; q < m; q++) yy += y[q]! * y[q]!;
+    let proj = 0;
+    // modified Gram–Schmidt (twice) on the 4 columns; energy captured = Σ (q_kᵀ y)²
+    for (let k = 0; k < 4; k++) {
+      const ok = k * m;
+      let n0 = 0;
+      for (let q = 0; q < m; q++) n0 += Q[ok + q]! ** 2;
+      for (let pass = 0; pass < 2; pass++) for (let l = 0; l < k; l++) {
+        const ol = l * m;
+        let d = 0;
+        for (let q = 0; q < m; q++) d += Q[ol + q]! * Q[ok + q]!;
+        for (let q = 0; q < m; q++) Q[ok + q] -= d * Q[ol + q]!;
+      }
+      let nn = 0;
+      for (let q = 0; q < m; q++) nn += Q[ok + q]! ** 2;
+      if (!(nn > 1e-24 * n0)) { for (let q = 0; q < m; q++) Q[ok + q] = 0; continue; }
+      const inv = 1 / Math.sqrt(nn);
+      let d = 0;
+      for (let q = 0; q < m; q++) { Q[ok + q] *= inv; d += Q[ok + q]! * y[q]!; }
+      proj += d * d;
+    }
+    res += Math.max(0, yy - proj);
+  }
+  return res;
+}
+
+/** Fit θ of the fourth-order family: grid in the signed wavenumber, then a shrinking-step search. */
+function fitWave4(G: Mat, x: Float64Array, segs: Segment[], kmax: number, startKs?: number): { theta: number; ks: number; residual: number } {
+  const E = energy(G, segs);
+  const dk = (2 * kmax) / 160;
+  let ks: number, f: number;
+  if (startKs !== undefined) { ks = startKs; f = objective4(G, x, segs, toTheta(ks)); }
+  else {
+    ks = 0; f = Infinity;
+    for (let a = 0; a <= 160; a++) { const k = -kmax + a * dk; const v = objective4(G, x, segs, toTheta(k)); if (v < f) { f = v; ks = k; } }
+  }
+  let step = startKs !== undefined ? dk / 4 : dk / 2;
+  for (let it = 0; it < 60 && step > 1e-7 * (1 + Math.abs(ks)); it++) {
+    const up = objective4(G, x, segs, toTheta(ks + step)), dn = objective4(G, x, segs, toTheta(ks - step));
+    if (up < f && up <= dn) { f = up; ks += step; } else if (dn < f) { f = dn; ks -= step; } else step /= 2;
+  }
+  return { theta: toTheta(ks), ks, residual: E > 0 ? Math.sqrt(f / E) : NaN };
+}
+
+export interface FourthOrderWave { theta: number; residual: number; thetaSd: number | null; adequate: boolean; identified: boolean; cubicResidual: number }
+
+/**
  * Local wavenumber / screening estimate of a 1-D scalar kernel on the sub-interval [a, b]
  * (for per-region answers). `reps` (resampled kernels) give the uncertainty; pass [] to skip.
  * `driftRate` (b/a, e.g. from the transport analysis) is the starting value of −p.
  */
-export function localWaveNumber(kernel: Kernel, interval: [number, number], reps: Mat[] = [], opts: { maxReplicates?: number; driftRate?: number } = {}): LocalWave | null {
+export function localWaveNumber(kernel: Kernel, interval: [number, number], reps: Mat[] = [], opts: { maxReplicates?: number; driftRate?: number; symmetric?: boolean } = {}): LocalWave | null {
   if (kernel.dimension !== 1 || kernel.components.in !== 1 || kernel.components.out !== 1) return null;
   const L = domainLength(kernel);
   const n = kernel.pointsOut.rows;
@@ -155,8 +244,10 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   if (segs.length < 2) return null;
   const x = kernel.pointsOut.data;
   const kmax = Math.min(Math.PI * (n - 1) / (4 * L), 250 / L);
-  const f = fitWave(kernel.G, x, segs, kmax, { p: -(opts.driftRate ?? 0) });
-  const rf = reps.slice(0, opts.maxReplicates ?? 12).map((R) => fitWave(R, x, segs, kmax, { p: f.p, ks: f.ks }));
+  const f = fitWave(kernel.G, x, segs, kmax, { p: opts.symmetric ? 0 : -(opts.driftRate ?? 0), fixP: opts.symmetric });
+  const rf = reps.slice(0, opts.maxReplicates ?? 12).map((R) => fitWave(R, x, segs, kmax, { p: f.p, ks: f.ks, fixP: opts.symmetric }));
+  const f4 = fitWave4(kernel.G, x, segs, kmax);
+  const rf4 = reps.slice(0, opts.maxReplicates ?? 12).map((R) => fitWave4(R, x, segs, kmax, f4.ks));
   const thetaSd = rf.length >= 3 ? std(rf.map((r) => r.theta)) : null;
   const kappa2Sd = rf.length >= 3 ? std(rf.map((r) => r.kappa2)) : null;
   const E = energy(kernel.G, segs);
@@ -167,9 +258,18 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
     for (const R of reps) for (const sg of segs) for (let q = 0; q < sg.rows.length; q++) { const idx = sg.rows[q]! * R.cols + sg.col; e += (R.data[idx]! - mu[idx]!) ** 2; }
     noiseResidual = Math.sqrt(e / (reps.length - 1) / E);
   }
-  const adequate = f.residual <= Math.max(3 * (noiseResidual ?? 0), 0.02);
+  // our adequacy rule: the model's systematic misfit √(res² − noise²) must not exceed the noise
+  // itself (with a 2 % allowance for a noise-free kernel's own discretisation error)
+  const allowance = Math.max(Math.SQRT2 * (noiseResidual ?? 0), 0.02);
+  const adequate = f.residual <= allowance;
+  // θ of the fourth-order family is identified only when plain cubics (θ = 0) do not already explain the segments
+  const cubicResidual = Math.sqrt(objective4(kernel.G, x, segs, 0) / E);
+  const fourth: FourthOrderWave = {
+    theta: f4.theta, residual: f4.residual, thetaSd: rf4.length >= 3 ? std(rf4.map((r) => r.theta)) : null,
+    adequate: f4.residual <= allowance, identified: cubicResidual > allowance, cubicResidual,
+  };
   return {
-    noiseResidual, adequate,
+    noiseResidual, adequate, fourth,
     theta: f.theta, p: f.p, kappa2: f.kappa2, residual: f.residual, segments: f.segments, points: f.points,
     wavenumber: f.theta > 0 ? Math.sqrt(f.theta) : null,
     screeningLength: f.kappa2 > 0 ? 1 / Math.sqrt(f.kappa2) : null,
@@ -178,6 +278,10 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
 }
 
 const cache = new WeakMap<Mat, { lw: LocalWave | null; why: string | null }>();
+
+function saVerdict(ctx: Context): YesNo | undefined {
+  return (ctx.results['self_adjoint']?.finding as Findings['self_adjoint'] | undefined)?.verdict;
+}
 
 function globalFit(kernel: Kernel, ctx: Context): { lw: LocalWave | null; why: string | null } {
   const hit = cache.get(kernel.G);
@@ -190,24 +294,72 @@ function globalFit(kernel: Kernel, ctx: Context): { lw: LocalWave | null; why: s
     const iv: [number, number] = d.kind === 'interval' ? d.bounds : [Math.min(...kernel.pointsOut.data), Math.max(...kernel.pointsOut.data)];
     const tr = ctx.results['transport']?.evidence.plot?.['drift_rate'];
     const r = Array.isArray(tr) && typeof tr[0] === 'number' && Number.isFinite(tr[0]) ? tr[0] : 0;
-    const lw = localWaveNumber(kernel, iv, replicates(ctx), { driftRate: r });
+    // a self-adjoint constant-coefficient operator has no drift term: p = 0
+    const lw = localWaveNumber(kernel, iv, replicates(ctx), { driftRate: r, symmetric: saVerdict(ctx) === 'yes' });
     out = { lw, why: lw ? null : 'too few off-diagonal column segments' };
   }
   cache.set(kernel.G, out);
   return out;
 }
 
+export interface SignTest { decision: 'present' | 'absent' | 'inconclusive'; confidence: number; trusted: number; negatives: number }
+
+/**
+ * Sign of the spectrum. A self-adjoint operator −∇·(a∇u) + c u with c ≥ 0 is positive
+ * definite, so all eigenvalues of its Green's operator are positive; a wave (Helmholtz-type)
+ * operator −∇·(a∇u) − k²u with k² above the lowest mode has negative ones — and since its
+ * negative eigenvalues lie in (−k², 0), their Green's-operator counterparts are large in
+ * magnitude, i.e. among the leading, trustworthy ones (Courant–Hilbert I ch. VI, min–max).
+ * The sign of λ_k is that of u_kᵀv_k of the singular triplet (±1 for a symmetric kernel).
+ * Works in any dimension; needs at least 6 trustworthy values (the count order.ts asks for a
+ * decay fit) and a kernel not shown to be non-self-adjoint.
+ */
+export function spectralSignTest(kernel: Kernel, ctx: Context): SignTest {
+  const none: SignTest = { decision: 'inconclusive', confidence: 0.5, trusted: 0, negatives: 0 };
+  if (kernel.components.in !== 1 || kernel.components.out !== 1 || !colocated(kernel) || saVerdict(ctx) === 'no') return none;
+  const idRank = ctx.fit?.coverage?.identified_rank;
+  const sp = kernelSpectrum(kernel, replicates(ctx), typeof idRank === 'number' ? idRank : undefined);
+  const K = sp.trusted, U = sp.svd.U, V = sp.svd.V, kc = U.cols;
+  if (K < 6) return { ...none, trusted: K };
+  let neg = 0, zNeg = 0, zPosMin = Infinity;
+  for (let k = 0; k < K; k++) {
+    let c = 0;
+    for (let i = 0; i < U.rows; i++) c += U.data[i * kc + k]! * V.data[i * V.cols + k]!;
+    const z = sp.s[k]! / Math.max(sp.err[k]!, 1e-300);
+    if (c < -0.5) { neg++; zNeg = Math.max(zNeg, z); } else if (c > 0.5) zPosMin = Math.min(zPosMin, z);
+    else return { ...none, trusted: K }; // not a symmetric pair: the sign is not defined
+  }
+  if (neg > 0) return { decision: 'present', confidence: round3(normalCdf(zNeg - 2)), trusted: K, negatives: neg };
+  // wavenumbers beyond the trusted modes are not examined: at most 0.9
+  return { decision: 'absent', confidence: round3(Math.min(0.9, normalCdf(zPosMin - 1))), trusted: K, negatives: 0 };
+}
+
 const explanationOsc =
   'Away from the source point every column of the kernel obeys the same homogeneous equation, so its shape tells the local physics. ' +
-  'We fit all column segments at once with the solutions of a second-order equation with constant coefficients, e^{−px/2}(A cos kx + B sin kx), choosing p and k² that fit best. ' +
+  'We fit all column segments at once with the solutions of a second-order equation with constant coefficients, e^{−px/2}(A cos kx + B sin kx), and of a fourth-order one (beam-like, 1, x, cos kx, sin kx), choosing the k² that fits best; a verdict needs every model that explains the columns to agree. ' +
+  'Independently, a wave-type operator has negative eigenvalues among its leading ones, while a diffusion or beam operator has none; this sign test also works in 2-D. ' +
   'A positive k² well above its resampling spread means the response oscillates with wavenumber k (a wave or Helmholtz-type operator).';
 const explanationScr =
-  'From the same fit, the reaction part c/a = −k² − p²/4 measures how fast the response dies away beyond what transport explains. ' +
+  'From the second-order fit, the reaction part c/a = −k² − p²/4 measures how fast the response dies away beyond what transport explains. ' +
   'A positive value well above its resampling spread means screening, with screening length 1/√(c/a) (a reaction–diffusion operator).';
 
 function inapplicable(key: 'oscillation' | 'screening', why: string): AnalysisOutput<Findings['oscillation'] | Findings['screening']> {
-  const finding = key === 'oscillation' ? { verdict: 'inconclusive' as YesNo, wavenumber: null, applicable: false } : { verdict: 'inconclusive' as YesNo, length: null, applicable: false };
+  const finding = key === 'oscillation' ? { verdict: 'inconclusive' as YesNo, wavenumber: null, confidence: 0.5, applicable: false } : { verdict: 'inconclusive' as YesNo, length: null, confidence: 0.5, applicable: false };
   return { finding, evidence: { statistic: null, noise_floor: null, summary: `Not tested: ${why}.`, explanation: key === 'oscillation' ? explanationOsc : explanationScr } };
+}
+
+/**
+ * Oscillation means at least half a wavelength inside the domain: k² above the lowest
+ * Dirichlet mode (π/L)² (below it a wave operator is still positive definite and its responses
+ * do not oscillate). Present when k² exceeds it by 3 standard errors, absent when the one-sided
+ * 95 % upper bound stays below it (as in `decide`), inconclusive otherwise.
+ */
+function decideAbove(value: number, sd: number, threshold: number): { decision: 'present' | 'absent' | 'inconclusive'; confidence: number } {
+  if (!Number.isFinite(value) || !(sd >= 0)) return { decision: 'inconclusive', confidence: 0.5 };
+  const z = sd > 0 ? (value - threshold) / sd : (value > threshold ? Infinity : -Infinity);
+  if (z >= 3) return { decision: 'present', confidence: round3(normalCdf(z - 2)) };
+  if (z < -EQUIVALENCE_Z) return { decision: 'absent', confidence: round3(Math.min(0.99, normalCdf(-z - 1))) };
+  return { decision: 'inconclusive', confidence: 0.5 };
 }
 
 /** Effects weaker than the lowest Dirichlet mode of the domain, (π/L)², count as absent. */
@@ -215,43 +367,63 @@ function resolution(kernel: Kernel): number {
   return (Math.PI / domainLength(kernel)) ** 2;
 }
 
-function higherOrder(ctx: Context): boolean {
-  const o = ctx.results['order']?.finding as Findings['order'] | undefined;
-  return !!o && o.estimate !== null && o.estimate > 2 && o.confidence >= 0.8;
-}
+type Vote = { by: string; decision: 'present' | 'absent' | 'inconclusive'; confidence: number };
 
 export const oscillation: Analysis<Findings['oscillation']> = {
   key: 'oscillation',
-  dependsOn: ['order', 'transport'],
+  dependsOn: ['self_adjoint', 'order', 'transport'],
   run(kernel, ctx) {
     const { lw, why } = globalFit(kernel, ctx);
-    if (!lw) return inapplicable('oscillation', why!) as AnalysisOutput<Findings['oscillation']>;
-    const sd = lw.thetaSd ?? NaN;
-    const d = decide(Math.max(lw.theta, 0), sd, resolution(kernel));
-    let verdict: YesNo = d.decision === 'present' ? 'yes' : d.decision === 'absent' ? 'no' : 'inconclusive';
-    const ho = higherOrder(ctx) || !lw.adequate;
-    if (ho) verdict = 'inconclusive';
-    const k = lw.wavenumber;
+    const sign = spectralSignTest(kernel, ctx);
+    const votes: Vote[] = [];
+    const res = resolution(kernel);
+    if (lw?.adequate) votes.push({ by: 'second-order fit', ...decideAbove(lw.theta, lw.thetaSd ?? NaN, res) });
+    if (lw?.fourth.adequate && lw.fourth.identified) votes.push({ by: 'fourth-order fit', ...decideAbove(lw.fourth.theta, lw.fourth.thetaSd ?? NaN, res) });
+    // the sign test counts only when it decides (it is undecided by construction with few trusted values)
+    if (sign.decision !== 'inconclusive') votes.push({ by: 'spectrum sign', decision: sign.decision, confidence: sign.confidence });
+    let verdict: YesNo = 'inconclusive', confidence = 0.5;
+    if (votes.length && votes.every((v) => v.decision === votes[0]!.decision) && votes[0]!.decision !== 'inconclusive') {
+      verdict = votes[0]!.decision === 'present' ? 'yes' : 'no';
+      confidence = Math.min(...votes.map((v) => v.confidence));
+    }
+    if (!lw && sign.decision === 'inconclusive') {
+      const o = inapplicable('oscillation', sign.trusted ? `${why}, and only ${sign.trusted} trustworthy singular values for the sign test` : why!) as AnalysisOutput<Findings['oscillation']>;
+      return o;
+    }
+    // wavenumber from the adequate fit (second order first; the fourth-order family nests it)
+    const useFit = lw ? (lw.adequate ? { theta: lw.theta, sd: lw.thetaSd } : lw.fourth.adequate ? { theta: lw.fourth.theta, sd: lw.fourth.thetaSd } : null) : null;
+    const k = useFit && useFit.theta > 0 ? Math.sqrt(useFit.theta) : null;
+    const sd = useFit?.sd ?? NaN;
     const kSd = k && Number.isFinite(sd) ? sd / (2 * k) : null;
+    const vtxt = votes.map((v) => `${v.by}: ${v.decision}`).join('; ');
     return {
       finding: {
         verdict,
         wavenumber: verdict === 'yes' ? sig(k, 4) : null,
         wavenumber_uncertainty: verdict === 'yes' ? sig(kSd, 2) : null,
-        confidence: verdict === 'inconclusive' ? 0.5 : d.confidence,
-        k_squared: sig(lw.theta, 4),
-        drift_term: sig(lw.p, 4),
-        fit_residual: sig(lw.residual, 3),
-        noise_residual: sig(lw.noiseResidual, 3),
-        model_adequate: lw.adequate,
+        confidence: round3(confidence),
+        k_squared: lw ? sig(lw.theta, 4) : null,
+        k_squared_fourth_order: lw ? sig(lw.fourth.theta, 4) : null,
+        drift_term: lw ? sig(lw.p, 4) : null,
+        fit_residual: lw ? sig(lw.residual, 3) : null,
+        fit_residual_fourth_order: lw ? sig(lw.fourth.residual, 3) : null,
+        noise_residual: lw ? sig(lw.noiseResidual, 3) : null,
+        model_adequate: lw ? lw.adequate : null,
+        fourth_order_adequate: lw ? lw.fourth.adequate : null,
+        fourth_order_identified: lw ? lw.fourth.identified : null,
+        negative_eigenvalues: sign.trusted >= 6 ? sign.negatives : null,
+        trustworthy_values: sign.trusted,
+        votes: votes.map((v) => ({ by: v.by, decision: v.decision, confidence: v.confidence })),
       },
       evidence: {
-        statistic: sig(lw.theta, 4),
-        noise_floor: sig(sd, 3),
-        summary: `Column segments fit with k² = ${lw.theta.toPrecision(4)} ± ${Number.isFinite(sd) ? sd.toPrecision(2) : '?'} (p = ${lw.p.toPrecision(3)}, relative residual ${lw.residual.toPrecision(2)} over ${lw.segments} segments): ` +
-          (verdict === 'yes' ? `oscillatory with wavenumber ${k!.toPrecision(4)}.` : verdict === 'no' ? 'no oscillation.' : ho ? 'the columns are not explained by one second-order equation with constant coefficients (higher order, or coefficients that vary: see the regions).' : 'the data do not decide.'),
+        statistic: lw ? sig(lw.theta, 4) : sign.negatives,
+        noise_floor: lw ? sig(lw.thetaSd, 3) : null,
+        summary: (lw ? `Column segments: second-order fit k² = ${lw.theta.toPrecision(4)} ± ${lw.thetaSd !== null ? lw.thetaSd.toPrecision(2) : '?'} (p = ${lw.p.toPrecision(3)}, residual ${lw.residual.toPrecision(2)}${lw.adequate ? '' : ', not adequate'}), fourth-order fit k² = ${lw.fourth.theta.toPrecision(4)} (residual ${lw.fourth.residual.toPrecision(2)}${lw.fourth.adequate ? '' : ', not adequate'}). ` : '') +
+          (sign.trusted >= 6 ? `${sign.negatives} negative among ${sign.trusted} trustworthy eigenvalues. ` : '') +
+          `Evidence: ${vtxt || 'none decisive'} — ` +
+          (verdict === 'yes' ? `oscillatory${k ? ` with wavenumber ${k.toPrecision(4)}` : ''}.` : verdict === 'no' ? 'no oscillation.' : 'not decided.'),
         explanation: explanationOsc,
-        plot: { kind: 'segments', k_squared: lw.theta, p: lw.p, residual: lw.residual, segments: lw.segments },
+        plot: { kind: 'segments', k_squared: lw?.theta ?? null, p: lw?.p ?? null, residual: lw?.residual ?? null, segments: lw?.segments ?? 0, negative_eigenvalues: sign.negatives, trusted: sign.trusted },
       },
     };
   },
@@ -259,15 +431,14 @@ export const oscillation: Analysis<Findings['oscillation']> = {
 
 export const screening: Analysis<Findings['screening']> = {
   key: 'screening',
-  dependsOn: ['order', 'transport'],
+  dependsOn: ['self_adjoint', 'order', 'transport'],
   run(kernel, ctx) {
     const { lw, why } = globalFit(kernel, ctx);
     if (!lw) return inapplicable('screening', why!) as AnalysisOutput<Findings['screening']>;
     const sd = lw.kappa2Sd ?? NaN;
     const d = decide(Math.max(lw.kappa2, 0), sd, resolution(kernel));
     let verdict: YesNo = d.decision === 'present' ? 'yes' : d.decision === 'absent' ? 'no' : 'inconclusive';
-    const ho = higherOrder(ctx) || !lw.adequate;
-    if (ho) verdict = 'inconclusive';
+    if (!lw.adequate) verdict = 'inconclusive';
     const len = lw.screeningLength;
     const lenSd = len && Number.isFinite(sd) ? 0.5 * len * sd / lw.kappa2 : null;
     return {
@@ -282,12 +453,10 @@ export const screening: Analysis<Findings['screening']> = {
         statistic: sig(lw.kappa2, 4),
         noise_floor: sig(sd, 3),
         summary: `Reaction-to-diffusion ratio c/a = ${lw.kappa2.toPrecision(4)} ± ${Number.isFinite(sd) ? sd.toPrecision(2) : '?'}: ` +
-          (verdict === 'yes' ? `screened, with screening length ${len!.toPrecision(3)}.` : verdict === 'no' ? 'no screening.' : ho ? 'the columns are not explained by one second-order equation with constant coefficients.' : 'the data do not decide.'),
+          (verdict === 'yes' ? `screened, with screening length ${len!.toPrecision(3)}.` : verdict === 'no' ? 'no screening.' : !lw.adequate ? 'the columns are not explained by one second-order equation with constant coefficients.' : 'the data do not decide.'),
         explanation: explanationScr,
         plot: { kind: 'segments', kappa_squared: lw.kappa2, p: lw.p },
       },
     };
   },
 };
-
-
