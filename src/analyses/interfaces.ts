@@ -313,7 +313,18 @@ function basis(model: ModelName, x: Float64Array, taus: number[], blur: number, 
     const t = Float64Array.from(x, (v) => (2 * (v - lo)) / (hi - lo) - 1);
     return [one, t, Float64Array.from(t, (v) => v * v), Float64Array.from(t, (v) => v * v * v)];
   }
-  return [one, ...taus.flatMap((tau) => [Float64Array.from(x, (v) => ramp((v - tau) / blur)), Float64Array.from(x, (v) => hat((v - tau) / blur))])];
+  return [one, ...taus.flatMap((tau) => stepColumns(x, tau, blur))];
+}
+
+// ramp and hat columns per (centres, change, blur): the searches ask for the same ones often
+const stepCache = new WeakMap<Float64Array, Map<string, [Float64Array, Float64Array]>>();
+function stepColumns(x: Float64Array, tau: number, blur: number): [Float64Array, Float64Array] {
+  let m = stepCache.get(x);
+  if (!m) { m = new Map(); stepCache.set(x, m); }
+  const key = `${tau}|${blur}`;
+  let c = m.get(key);
+  if (!c) { c = [Float64Array.from(x, (v) => ramp((v - tau) / blur)), Float64Array.from(x, (v) => hat((v - tau) / blur))]; m.set(key, c); }
+  return c;
 }
 
 /**
@@ -567,10 +578,10 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
   const interfaces: InterfaceResult['interfaces'] = [];
   if (chosen.model === 'step' || chosen.model === 'two-steps') {
     // replicates: the same decision on each; locations from the chosen model's refit
-    const repDec = reps.map((r) => { const c = compareModels(r, sd, used); return { c, d: decide(c, used) }; });
+    const repDec = reps.slice(0, 4).map((r) => { const c = compareModels(r, sd, used); return { c, d: decide(c, used) }; });
     const repTaus = repDec.map(({ c }) => c.fits.find((f) => f.model === chosen.model)!.taus);
     const agree = repDec.filter(({ d }) => d.pSharp > 0.5).length;
-    const recur = reps.length ? (agree + 1) / (reps.length + 2) : 0.5;
+    const recur = repDec.length ? (agree + 1) / (repDec.length + 2) : 0.5;
     const uniform = isUniform(main.centers.length ? kernel.pointsOut.data.slice(0, kernel.pointsOut.rows) : new Float64Array());
     const blurMax = Math.max(...used.map((nm) => main.blur[nm]!));
     const xo = kernel.pointsOut.data.slice(0, kernel.pointsOut.rows), si = kernel.pointsIn.data.slice(0, kernel.pointsIn.rows);

@@ -161,6 +161,8 @@ export interface Singularity {
   recurrence: number;
   influence: number;
   noise: number;
+  /** indices of the kernel slices (rows/columns/diagonal) in which it was seen */
+  slices?: number[];
 }
 
 interface Slice { x: Float64Array; f: Float64Array; diag: number | null; kind: 'row' | 'column' | 'diagonal' }
@@ -222,6 +224,8 @@ export interface SingularityOptions {
   homogeneousSd?: Float64Array | null;
   /** size of a typical response (max|G| · L), below √ε of which u_h counts as zero */
   responseScale?: number;
+  /** scan only these kernel slices (replicate checks of the slices that showed a candidate) */
+  onlySlices?: Set<number>;
 }
 
 /** max|G| times the domain length: the size of the response to a unit forcing */
@@ -273,7 +277,9 @@ export function findSingularities(G: Mat, homogeneous: Float64Array | null, kern
     const sl = slices(G, xOut, xIn, opts.slices ?? 6, lo, hi);
     const hits: { loc: number; width: number; influence: number; noise: number }[][] = [];
     const diagOf: (number | null)[] = [];
-    for (const s of sl) {
+    for (let k = 0; k < sl.length; k++) {
+      const s = sl[k]!;
+      if (opts.onlySlices && !opts.onlySlices.has(k)) { hits.push([]); diagOf.push(NaN); continue; }
       const scan = scanPoles(s.x, s.f, { lo, hi, maxTerms: 16 });
       scans++;
       for (const q of scan.poles) plot.push({ ...q, source: s.kind });
@@ -296,9 +302,10 @@ export function findSingularities(G: Mat, homogeneous: Float64Array | null, kern
       loc /= wsum;
       // eligible slices: those whose own diagonal kink does not mask this location
       let eligible = 0;
+      // (slices not scanned, NaN, are not eligible)
       for (let k = 0; k < sl.length; k++) if (diagOf[k] === null || Math.abs(diagOf[k]! - loc) >= Math.max(tol, 3 * width)) eligible++;
       const recurrence = eligible ? Math.min(1, slicesHit.size / eligible) : 0;
-      if (recurrence >= 0.5) found.push({ location: loc, width, source: 'kernel', recurrence, influence: infl, noise });
+      if (recurrence >= 0.5) found.push({ location: loc, width, source: 'kernel', recurrence, influence: infl, noise, slices: [...slicesHit] });
     }
   }
   return { found, plot, scans };
@@ -396,7 +403,7 @@ export const singularities: Analysis<F> = {
       }
     }
     const main = findSingularities(block(kernel.G), kernel.homogeneous, kernel, { homogeneousSd: hSd });
-    const maxReps = Math.max(0, Math.min(8, Number(ctx.options['singularityReplicates'] ?? 8)));
+    const maxReps = Math.max(0, Math.min(8, Number(ctx.options['singularityReplicates'] ?? 6)));
     const reps = ctx.noise.replicates.slice(0, maxReps);
     const hreps = ctx.noise.homogeneousReplicates;
     const h = Math.max(medianSpacing(kernel.pointsOut.data), medianSpacing(kernel.pointsIn.data));
@@ -404,8 +411,10 @@ export const singularities: Analysis<F> = {
     // replicates are scanned only for the kinds of candidate the kernel itself showed
     const wantH = main.found.some((s) => s.source === 'homogeneous');
     const wantK = main.found.some((s) => s.source === 'kernel');
+    // replicates re-scan only the slices in which the kernel showed a candidate
+    const hitSlices = new Set(main.found.flatMap((s) => s.slices ?? []));
     const repFound = wantH || wantK
-      ? reps.map((R, k) => findSingularities(block(R), hreps[k] ?? null, kernel, { homogeneous: wantH, kernel: wantK, homogeneousSd: hSd }).found)
+      ? reps.map((R, k) => findSingularities(block(R), hreps[k] ?? null, kernel, { homogeneous: wantH, kernel: wantK, homogeneousSd: hSd, onlySlices: hitSlices }).found)
       : [];
     const finding: F = [];
     for (const s of main.found) {
