@@ -98,6 +98,11 @@ export function diagnose(input: DiagnoseInput, opts: DiagnoseOptions): DiagnoseR
     }
   }
 
+  // the homogeneous part with a pointwise band (±2 standard deviations over the replicates)
+  if (kernel.homogeneous && noise.homogeneousReplicates.length >= 2) {
+    evidence.homogeneous = homogeneousEvidence(kernel, noise);
+  }
+
   const base = {
     format: 'kerneldx-findings/1' as const,
     tool: TOOL,
@@ -130,4 +135,31 @@ function hashKey(s: string): number {
   let h = 2166136261;
   for (let i = 0; i < s.length; i++) h = Math.imul(h ^ s.charCodeAt(i), 16777619) >>> 0;
   return h;
+}
+
+function homogeneousEvidence(kernel: Kernel, noise: NoiseFloor): Evidence {
+  const h = kernel.homogeneous!;
+  const reps = noise.homogeneousReplicates;
+  const R = reps.length;
+  const lower: number[] = [], upper: number[] = [], sd: number[] = [];
+  for (let i = 0; i < h.length; i++) {
+    let m = 0;
+    for (const r of reps) m += r[i]! / R;
+    let v = 0;
+    for (const r of reps) v += (r[i]! - m) ** 2;
+    const s = Math.sqrt(v / (R - 1));
+    sd.push(s);
+    lower.push(h[i]! - 2 * s);
+    upper.push(h[i]! + 2 * s);
+  }
+  const nOut = kernel.pointsOut.rows;
+  const x = Array.from({ length: h.length }, (_, i) => kernel.pointsOut.data[(i % nOut) * kernel.dimension]!);
+  const hNorm = Math.sqrt(h.reduce((s, v) => s + v * v, 0));
+  const sdNorm = Math.sqrt(sd.reduce((s, v) => s + v * v, 0));
+  return {
+    statistic: hNorm, noise_floor: sdNorm,
+    summary: `The homogeneous (boundary- or offset-driven) part has norm ${hNorm.toPrecision(3)} against a replicate spread of ${sdNorm.toPrecision(3)}.`,
+    explanation: 'The homogeneous part u_h is the response the system shows with no forcing at all: the effect of boundary temperatures, offsets or drifts. The band is ±2 standard deviations of u_h over the resampled fits.',
+    plot: { x, value: Array.from(h), lower, upper, components: kernel.components.out },
+  };
 }

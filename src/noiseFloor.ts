@@ -226,7 +226,7 @@ export function withModelError(noise: NoiseFloor, kernel: Kernel, predictedRelEr
     ...noise,
     replicates,
     homogeneousReplicates,
-    assumption: `${noise.assumption} The resampled kernels varied less (${dev.toExponential(2)} relative) than the fit's predicted error ` +
+    assumption: `${noise.assumption.replace(/\s*$/, '').replace(/([^.])$/, '$1.')} The resampled kernels varied less (${dev.toExponential(2)} relative) than the fit's predicted error ` +
       `(${predictedRelErr.toExponential(2)}), which at low noise is mostly bias; each replicate was given an extra error of the predicted size ` +
       `in the span of the kernel's leading modes, so that no verdict rests on a difference smaller than the fit can resolve.`,
   };

@@ -46,6 +46,7 @@ function audit(opts: PipelineOptions, started: Date, seconds: number, rerun: str
     seconds,
     platform: { node: process.version, os: `${process.platform}`, arch: process.arch },
     rerun,
+    cwd: process.cwd(),
   };
 }
 
@@ -91,7 +92,9 @@ export async function diagnoseDir(inputDir: string, outDir: string, opts: Pipeli
   const dir = statSync(src).isDirectory() ? src : resolve(src, '..');
   const say = opts.progress ?? (() => {});
   const isKernel = isKernelDir(dir) && !existsSync(`${dir}/study.json`);
-  const options: Record<string, unknown> = { assume: opts.assume ?? 'none', refit: !opts.noRefit };
+  const options: Record<string, unknown> = {
+    input: inputDir, out: outDir, seed, assume: opts.assume ?? 'none', refit: !opts.noRefit, report: withReport,
+  };
   const rerunCmd = ['kerneldx', withReport ? 'run' : 'diagnose', relative(process.cwd(), dir) || '.', '--out', relative(process.cwd(), resolve(outDir)) || '.', '--seed', String(seed)]
     .concat(opts.assume && opts.assume !== 'none' ? ['--assume', opts.assume] : [])
     .concat(opts.noRefit ? ['--no-refit'] : []).map(quoteArg).join(' ');

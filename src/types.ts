@@ -204,6 +204,8 @@ export interface Audit {
   started: string;
   seconds: number;
   platform: { node: string; os: string; arch: string };
-  /** the command that re-creates this output */
+  /** the command that re-creates this output (run it from `cwd`) */
   rerun: string;
+  /** working folder the command ran in (the re-run command's paths are relative to it) */
+  cwd?: string;
 }
