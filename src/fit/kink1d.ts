@@ -337,12 +337,12 @@ export function kinkCandidates(Kmax: number): number[] {
  * Choose (K, penalty order, λ) for one output component by GCV. Sizes are tried in increasing order
  * and the search stops once GCV has risen for two sizes in a row (common practice for nested models).
  */
-export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, orders: number[], degree?: Float64Array, sizes = kinkCandidates(Kmax)): KinkChoice {
+export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, orders: number[], degree?: Float64Array, sizes = kinkCandidates(Kmax), jumps = [0.1, 10], behind?: (K: number, gcv: number) => boolean): KinkChoice {
   const tried: KinkChoice['tried'] = [];
   let best: KinkChoice | null = null;
   for (const order of orders) {
     const Pfull = penaltyWeights(Kmax, cIn, order, 1, degree);
-    let rises = 0, prev = Infinity;
+    let rises = 0, prev = Infinity, lagging = 0;
     for (const K of sizes) {
       const map = constraint === 'symmetric' ? symmetricMap(Kmax, K) : unconstrainedMap(Kmax, cIn, K);
       const red = reduceSystem(sys, Pfull, map);
@@ -351,18 +351,24 @@ export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constra
       if (!best || g.gcv < best.gcv.gcv) best = { K, order, gcv: g, tried };
       if (g.gcv >= prev) { if (++rises >= 2) break; } else rises = 0;
       prev = g.gcv;
+      // an alternative basis that is behind a reference at two sizes in a row is abandoned (same rule)
+      if (behind) { if (behind(K, g.gcv)) { if (++lagging >= 2) break; } else lagging = 0; }
     }
   }
-  // the relative prior size of the jump part, at the chosen size: factors 1/10, 1, 10 by GCV
-  const b0 = best!;
+  return chooseJump(sys, Kmax, cIn, constraint, best!, degree, jumps);
+}
+
+/** The relative prior size of the jump part, at the chosen size: factors 1/10, 1, 10 by GCV. */
+export function chooseJump(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, b0: KinkChoice, degree?: Float64Array, jumps = [0.1, 10]): KinkChoice {
+  let best = b0;
   const map = constraint === 'symmetric' ? symmetricMap(Kmax, b0.K) : unconstrainedMap(Kmax, cIn, b0.K);
-  for (const jump of [0.1, 10]) {
+  for (const jump of jumps) {
     const red = reduceSystem(sys, penaltyWeights(Kmax, cIn, b0.order, jump, degree), map);
     const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
-    tried.push({ K: b0.K, order: b0.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof, jump });
-    if (g.gcv < best!.gcv.gcv) best = { K: b0.K, order: b0.order, jump, gcv: g, tried };
+    b0.tried.push({ K: b0.K, order: b0.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof, jump });
+    if (g.gcv < best.gcv.gcv) best = { K: b0.K, order: b0.order, jump, gcv: g, tried: b0.tried };
   }
-  return best!;
+  return best;
 }
 
 export interface KinkFit {

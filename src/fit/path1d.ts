@@ -12,7 +12,7 @@ import { zeros } from '../linalg/dense.js';
 import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
-  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, setupKink, assembleFull, chooseKink, solveKink, kernelRows,
+  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, setupKink, assembleFull, chooseKink, chooseJump, solveKink, kernelRows,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
   symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
 } from './kink1d.js';
@@ -147,7 +147,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     constraint = 'none';
   }
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);
-  const fitBasis = (b: KinkBasis, sizes: number[]) => {
+  const fitBasis = (b: KinkBasis, sizes: number[], reference?: KinkChoice[]) => {
     const st = setupKink(prep, b, sets);
     const fs: KinkFit[] = [], cs: KinkChoice[] = [], ss: NormalSystem[] = [];
     let score = 0;
@@ -155,7 +155,10 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       const sys = assembleFull(st, prep, p, Kf);
       ss.push(sys);
       o.progress(`choosing basis size and regularisation by GCV${prep.cOut > 1 ? ` (output component ${p + 1})` : ''}${b.omega !== null ? ' (oscillatory basis)' : ''}`);
-      const choice = chooseKink(sys, Kf, prep.cIn, constraint, [PENALTY_ORDER], b.degree, sizes);
+      // the jump factor is chosen for the winning basis only (below): the bases are compared at factor 1
+      const ref = reference?.[p];
+      const behind = ref ? (K: number, g: number) => { if (K <= SCAN_SIZE) return false; const t = ref.tried.find((q) => q.K === K && q.jump === undefined); return t !== undefined && g > t.gcv; } : undefined;
+      const choice = chooseKink(sys, Kf, prep.cIn, constraint, [PENALTY_ORDER], b.degree, sizes, [], behind);
       fs.push(solveKink(sys, Kf, prep.cIn, choice, constraint, b.degree));
       cs.push(choice);
       score += choice.gcv.gcv * sys.nObs;
@@ -182,12 +185,14 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     oscillatory = { omega: scan.omega, small: scan.score, plainSmall, full: null };
     if (Number.isFinite(scan.omega) && scan.score < plainSmall) {
       o.progress(`oscillatory basis, ω = ${scan.omega.toPrecision(4)}: full GCV search`);
-      const enriched = fitBasis(oscillatoryKinkBasis(prep, Kf, scan.omega), [2, ...kinkCandidates(Kf)]);
+      const enriched = fitBasis(oscillatoryKinkBasis(prep, Kf, scan.omega), [2, ...kinkCandidates(Kf)], chosen.choices);
       oscillatory.full = enriched.score;
       if (enriched.score < chosen.score) chosen = enriched;
     }
   }
-  const { basis, setup, fits, choices, systems } = chosen;
+  const { basis, setup, systems } = chosen;
+  const choices = chosen.choices.map((c, p) => chooseJump(systems[p]!, Kf, prep.cIn, constraint, c, basis.degree));
+  const fits = choices.map((c, p) => (c === chosen.choices[p] ? chosen.fits[p]! : solveKink(systems[p]!, Kf, prep.cIn, c, constraint, basis.degree)));
   const thetas = fits.map((f) => f.theta);
   const G = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn);
   for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, thetas[p]!, p, G, fits[p]!.K);
