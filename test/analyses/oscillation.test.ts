@@ -1,6 +1,8 @@
 import { describe, it, expect } from 'vitest';
 import { oscillation, screening, localWaveNumber } from '../../src/analyses/oscillation.js';
-import { kernel1d, laplace, helmholtz, screened } from '../helpers/closedForms.js';
+import { kernel1d, laplace, helmholtz, screened, clampedBeam } from '../helpers/closedForms.js';
+import type { Kernel } from '../../src/types.js';
+import { selfAdjoint } from '../../src/analyses/selfAdjoint.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
 
 describe('oscillation and screening', () => {
@@ -30,5 +32,38 @@ describe('oscillation and screening', () => {
     const lw = localWaveNumber(k, [0.5, 1])!;
     expect(Math.abs(lw.wavenumber! - 15)).toBeLessThan(0.05);
     expect(lw.adequate).toBe(true);
+  });
+  it('clamped beam u⁗ (Butkovskiy; Roark, from memory): no oscillation — cubic columns, positive spectrum', () => {
+    const { kernel, ctx } = noisy(kernel1d(clampedBeam, 160), 0.001, 54);
+    ctx.results['self_adjoint'] = selfAdjoint.run(kernel, ctx);
+    const o = oscillation.run(kernel, ctx).finding;
+    expect(o.verdict).toBe('no');
+    expect(o.negative_eigenvalues).toBe(0);
+    // a second-order model cannot explain the beam's columns
+    expect(o.model_adequate).toBe(false);
+  });
+  it('2-D: the sign of the spectrum separates −Δ − k² (k² above the lowest mode) from −Δ on the unit square', () => {
+    // bilinear eigenfunction series G = Σ φ_mn(x) φ_mn(s) / (π²(m² + n²) − k²), φ_mn = 2 sin mπx sin nπy
+    // (Courant–Hilbert I ch. V; Stakgold & Holst, from memory), truncated at m, n ≤ 24
+    const kernel2d = (k2: number): Kernel => {
+      const m = 14, n = m * m, P = new Float64Array(2 * n);
+      for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) { P[2 * (a * m + b)] = (a + 1) / (m + 1); P[2 * (a * m + b) + 1] = (b + 1) / (m + 1); }
+      const G = { rows: n, cols: n, data: new Float64Array(n * n) };
+      for (let p = 1; p <= 24; p++) for (let q = 1; q <= 24; q++) {
+        const lam = Math.PI ** 2 * (p * p + q * q) - k2;
+        const phi = Float64Array.from({ length: n }, (_, i) => 2 * Math.sin(p * Math.PI * P[2 * i]!) * Math.sin(q * Math.PI * P[2 * i + 1]!));
+        for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) G.data[i * n + j] += phi[i]! * phi[j]! / lam;
+      }
+      const w = new Float64Array(n).fill(1 / (m + 1) ** 2);
+      return { dimension: 2, pointsOut: { rows: n, cols: 2, data: P }, pointsIn: { rows: n, cols: 2, data: P }, weightsIn: w, G, homogeneous: null, components: { in: 1, out: 1 }, domain: { kind: 'box', bounds: [[0, 1], [0, 1]] } };
+    };
+    for (const [k2, want] of [[0, 'no'], [30, 'yes']] as const) {
+      // λ_11 = 2π² ≈ 19.7 < 30 < λ_12 = 5π² ≈ 49.3: exactly one negative eigenvalue
+      const { kernel, ctx } = noisy(kernel2d(k2), 0.001, 55);
+      ctx.results['self_adjoint'] = selfAdjoint.run(kernel, ctx);
+      const o = oscillation.run(kernel, ctx).finding;
+      expect(o.verdict).toBe(want);
+      expect(o.negative_eigenvalues).toBe(k2 === 0 ? 0 : 1);
+    }
   });
 });

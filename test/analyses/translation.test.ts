@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
-import { translation, invarianceTest } from '../../src/analyses/translation.js';
-import { kernel1d, laplace, advdiff, helmholtz, screened, clampedBeam, piecewise } from '../helpers/closedForms.js';
+import { translation, invarianceTest, jointSlopeJump } from '../../src/analyses/translation.js';
+import { kernel1d, laplace, advdiff, helmholtz, screened, clampedBeam, piecewise, uniformGrid } from '../helpers/closedForms.js';
 import { squareView } from '../../src/analyses/util/a_common.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
 
@@ -15,10 +15,24 @@ describe('translation_invariant', () => {
     }
   });
 
-  it('uniform media at noise: verdict yes; a two-layer medium: verdict no', () => {
+  it('slope jump across the diagonal is −1/a(s) (jump condition, shared/references entry (i))', () => {
+    const x = uniformGrid(200);
+    // (d) −εu″ + bu′ with ε = 0.05: jump −1/ε = −20 everywhere, boundary layer and all
+    const adv = jointSlopeJump(kernel1d(advdiff(0.05, 1), 200).G, x);
+    for (const j of adv.jump) expect(Math.abs(j + 20)).toBeLessThan(0.2);
+    // (e) a = 1 | 10 at 0.4: −1 left of the interface, −0.1 right of it (away from the window)
+    const pw = jointSlopeJump(kernel1d(piecewise(1, 10, 0.4), 200).G, x);
+    pw.s.forEach((s, q) => {
+      if (s < 0.3) expect(Math.abs(pw.jump[q]! + 1)).toBeLessThan(1e-6);
+      if (s > 0.5) expect(Math.abs(pw.jump[q]! + 0.1)).toBeLessThan(1e-6);
+    });
+  });
+
+  it('uniform media with a floor well below the factor-2 yardstick: yes; two-layer media: no, changing near the interface', () => {
     for (const g of [laplace(), screened(10), advdiff(0.05, -1)]) {
-      const { kernel, ctx } = noisy(kernel1d(g, 120), 0.002, 21);
+      const { kernel, ctx } = noisy(kernel1d(g, 120), 0.0003, 21);
       const f = translation.run(kernel, ctx).finding;
+      expect(Number(f.noise_floor)).toBeLessThan(Number(f.resolution) / 3);
       expect(f.verdict).toBe('yes');
     }
     // (e) a = 1 on (0, 0.4), 10 on (0.4, 1): derived in the references from (i)
@@ -26,9 +40,15 @@ describe('translation_invariant', () => {
     const f = translation.run(kernel, ctx).finding;
     expect(f.verdict).toBe('no');
     expect(f.confidence).toBeGreaterThan(0.95);
-    // the slope jump −1/a(s) changes from −1 to −0.1 near s = 0.4
     expect(f.change_points!.length).toBeGreaterThan(0);
     const nearest = Math.min(...(f.change_points as number[]).map((c) => Math.abs(c - 0.4)));
-    expect(nearest).toBeLessThan(0.1);
+    expect(nearest).toBeLessThan(0.05);
+  });
+
+  it('a floor as large as the yardstick: not "yes" for a uniform medium, not confident either way', () => {
+    const { kernel, ctx } = noisy(kernel1d(laplace(), 120), 0.02, 21);
+    const f = translation.run(kernel, ctx).finding;
+    expect(Number(f.noise_floor)).toBeGreaterThan(Number(f.resolution) / 2);
+    expect(f.verdict).toBe('inconclusive');
   });
 });
