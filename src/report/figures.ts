@@ -72,7 +72,7 @@ export function kernelFigures(k: Kernel, L: Labels): { main: Figure[]; sym: Figu
 }
 
 /** u_h along the domain with a band (1-D), or binned over the plane (2-D). */
-export function homogeneousFigure(k: Kernel, relErr: number | null, L: Labels): Figure | null {
+export function homogeneousFigure(k: Kernel, relErr: number | null, L: Labels, pointwise?: { lower?: unknown; upper?: unknown } | null): Figure | null {
   const h = k.homogeneous;
   if (!h) return null;
   const n = k.pointsOut.rows, co = k.components.out;
@@ -85,14 +85,20 @@ export function homogeneousFigure(k: Kernel, relErr: number | null, L: Labels): 
       const idx = spreadIndices(n, 200);
       const xs = idx.map((i) => x[i]!), ys = idx.map((i) => y[i]!);
       let lower: number[] | null = null, upper: number[] | null = null;
-      if (relErr !== null && Number.isFinite(relErr) && relErr >= 0) {
+      const pl = pointwise && Array.isArray(pointwise.lower) && Array.isArray(pointwise.upper) && pointwise.lower.length === n * co && pointwise.upper.length === n * co
+        ? { lo: pointwise.lower as number[], hi: pointwise.upper as number[] } : null;
+      if (pl) {
+        // the diagnosis' pointwise band: ±2 standard deviations of u_h over the resampled fits
+        lower = idx.map((i) => pl.lo[c * n + i]!); upper = idx.map((i) => pl.hi[c * n + i]!);
+        bandNote = 'band: ± 2 standard deviations of u_h over the resampled fits, point by point';
+      } else if (relErr !== null && Number.isFinite(relErr) && relErr >= 0) {
         // the fit states a relative error of the whole vector u_h: ‖δu_h‖ / ‖u_h‖, i.e. an RMS error of relErr × RMS(u_h)
         const rms = Math.sqrt(y.reduce((s, v) => s + v * v, 0) / Math.max(1, y.length));
         lower = ys.map((v) => v - 2 * relErr * rms); upper = ys.map((v) => v + 2 * relErr * rms);
         bandNote = `band: ± 2 × the fit's predicted RMS error of u_h (relative error ${fmt(relErr)} of its RMS ${fmt(rms)}), the same width everywhere — the fit reports no pointwise error`;
       }
       const name = co > 1 ? `u_h, component ${c + 1}` : 'u_h';
-      if (lower && upper) layers.push({ kind: 'band', name: `${name} ± 2 RMS error`, x: xs, lower, upper, color: SERIES[c]! });
+      if (lower && upper) layers.push({ kind: 'band', name: pl ? `${name} ± 2 sd` : `${name} ± 2 RMS error`, x: xs, lower, upper, color: SERIES[c]! });
       layers.push({ kind: 'line', name, x: xs, y: ys, color: SERIES[c]! });
       data[co > 1 ? `component_${c + 1}` : 'u_h'] = { x: xs, value: ys, lower, upper };
     }

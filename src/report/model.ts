@@ -253,7 +253,7 @@ export function buildModel(inp: ModelInput): DossierModel {
 
   const kernelFigs: FigureRef[] = [];
   for (const f of [...kf.main, kf.sym]) { const r = add(f); if (r) kernelFigs.push(r); }
-  if (k) { const h = add(homogeneousFigure(k, inp.homogeneousError ?? null, L)); if (h) kernelFigs.push(h); }
+  if (k) { const h = add(homogeneousFigure(k, inp.homogeneousError ?? null, L, (inp.findings.evidence?.homogeneous?.plot ?? null) as { lower?: unknown; upper?: unknown } | null)); if (h) kernelFigs.push(h); }
   if (k && k.dimension === 2 && k.components.in === 1) for (const f of sliceFigures(k, L)) { const r = add(f); if (r) kernelFigs.push(r); }
 
   const A = F.audit;
