@@ -156,8 +156,23 @@ export function fitStudy(study: Study, opts: FitOptions = {}): FitResult {
   return other;
 }
 
+/** Whether a constrained refit exists for this study (1-D, one component); otherwise the refit is a no-op. */
+function refitApplies(prep: Prepared): boolean {
+  return prep.dimension === 1 && prep.cIn === 1 && prep.cOut === 1;
+}
+
 function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint: 'symmetric' | 'translation', seed: number, R: number, progress: (m: string) => void, forced: boolean): FitResult {
   const t0 = Date.now();
+  if (!refitApplies(prep)) {
+    // nothing to refit (the span model and block kernels have no constrained form): say so, keep the fit
+    const prevResidual = previous.report.refits.find((r) => r.constraint === 'none')?.relative_residual ?? previous.report.relative_residual;
+    const report = {
+      ...previous.report,
+      refits: [{ constraint: 'none', relative_residual: prevResidual, used: true }, { constraint, relative_residual: prevResidual, used: false }],
+    } as FitReport & Record<string, unknown>;
+    report.refit_note = `a ${constraint} refit is implemented for scalar 1-D studies only (this one is ${prep.dimension}-D${prep.cIn > 1 || prep.cOut > 1 ? ' with several components' : ''}); the unconstrained kernel is used`;
+    return { kernel: previous.kernel, noise: previous.noise, report };
+  }
   const core = runCore(study, prep, constraint, seed, R, progress);
   const res = assemble(study, prep, core, seed, t0);
   const prevEntry = previous.report.refits.find((r) => r.constraint === 'none') ?? { constraint: 'none', relative_residual: previous.report.relative_residual, used: true };

@@ -6,7 +6,7 @@
  */
 import { describe, it, expect } from 'vitest';
 import { parseOperator, simulateStudy } from '../../src/simulate/index.js';
-import { fitStudy } from '../../src/fit/index.js';
+import { fitStudy, refit } from '../../src/fit/index.js';
 import { parseGrid } from '../../src/cli/common.js';
 import { relativeError, matmulNT, zeros } from '../../src/linalg/dense.js';
 import { gpDraws } from '../../src/design/gp.js';
@@ -25,5 +25,11 @@ describe('2-D span model', () => {
     for (let j = 0; j < 50; j++) for (let k = 0; k < n; k++) HW.data[j * n + k] = H.data[j * n + k]! * w[k]!;
     const err = relativeError(matmulNT(HW, f.kernel.G), matmulNT(HW, sim.truth.kernel.G));
     expect(err).toBeLessThanOrEqual(0.01);
+    // the diagnosis asks for a symmetric refit once self-adjointness is established: in 2-D it has no
+    // constrained form, so it must keep the fit and say so (not fail, not claim a refit)
+    const r = refit(sim.study, f, 'symmetric');
+    expect(r.kernel.G).toBe(f.kernel.G);
+    expect(r.report.refits.map((x) => [x.constraint, x.used])).toEqual([['none', true], ['symmetric', false]]);
+    expect(String((r.report as unknown as Record<string, unknown>).refit_note)).toMatch(/scalar 1-D/);
   });
 });
