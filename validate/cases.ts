@@ -22,7 +22,15 @@ export interface Expect {
   coupling?: 'none' | 'one-way' | 'two-way';
   linearity?: 'linear' | 'nonlinear';
   /** constant coefficients of the operator (checked against operator.terms' interior mean) */
-  coefficients?: { diffusion?: number; reaction?: number };
+  coefficients?: { diffusion?: number; reaction?: number; advection?: number; 'fourth-order'?: number };
+  /**
+   * coefficient profiles checked point by point against the truth (worst point within 5 % at
+   * noise 0 and 10 % at 0.01; band covering the truth everywhere at every level); points whose
+   * test bump reaches within 0.02 of the domain length of an `awayFrom` location are skipped
+   */
+  profiles?: { term: string; truth: (x: number) => number; label: string; awayFrom?: number[] }[];
+  /** terms the operator does not have: must not be written into the expression, band must cover 0 */
+  absentTerms?: string[];
 }
 
 export interface Case {
@@ -45,15 +53,15 @@ export interface Case {
 export const cases: Case[] = [
   {
     name: 'uniform-diffusion', family: 'constant coefficients', spec: 'a=1', fast: true,
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'no', screening: 'no', interfaces: [], singularities: [], coefficients: { diffusion: 1 } },
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'no', screening: 'no', interfaces: [], singularities: [], coefficients: { diffusion: 1 }, absentTerms: ['reaction', 'advection'] },
   },
   {
     name: 'variable-conductivity', family: 'variable coefficients', spec: 'a=1+x^2',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', interfaces: [] },
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', interfaces: [], profiles: [{ term: 'diffusion', truth: (x) => 1 + x * x, label: '1 + x²' }], absentTerms: ['reaction'] },
   },
   {
     name: 'transport-plus-x', family: 'transport', spec: 'a=0.05; b=1', fast: true,
-    expect: { self_adjoint: 'no', transport: '+x', order: 2, locality: 'local', oscillation: 'no', interfaces: [] },
+    expect: { self_adjoint: 'no', transport: '+x', order: 2, locality: 'local', oscillation: 'no', interfaces: [], coefficients: { diffusion: 0.05, advection: 1 }, absentTerms: ['reaction'] },
   },
   {
     name: 'transport-minus-x', family: 'transport', spec: 'a=0.05; b=-1',
@@ -69,7 +77,7 @@ export const cases: Case[] = [
   },
   {
     name: 'bar-one-interface', family: 'piecewise', spec: 'a=pw(1,0.4,10)',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.4] },
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
   },
   {
     name: 'bar-two-interfaces', family: 'piecewise', spec: 'a=pw(1,0.3,4,0.7,1)',
@@ -85,7 +93,7 @@ export const cases: Case[] = [
   },
   {
     name: 'clamped-beam', family: 'fourth order', spec: 'e=1', fast: true,
-    expect: { self_adjoint: 'yes', transport: 'none', order: 4, locality: 'local', oscillation: 'no', interfaces: [] },
+    expect: { self_adjoint: 'yes', transport: 'none', order: 4, locality: 'local', oscillation: 'no', interfaces: [], coefficients: { 'fourth-order': 1 } },
   },
   {
     name: 'gaussian-nonlocal', family: 'non-local', spec: 'kernel=exp(-((x-s)/0.15)^2)',
@@ -101,7 +109,7 @@ export const cases: Case[] = [
   },
   {
     name: 'plate-2d', family: '2-D', spec: 'domain=box(0,1,0,1)', grid2d: 24, count: 150, lengthScale: 0.1,
-    expect: { self_adjoint: 'yes', order: 2, locality: 'local', oscillation: 'no' },
+    expect: { self_adjoint: 'yes', order: 2, locality: 'local', oscillation: 'no', coefficients: { diffusion: 1 }, absentTerms: ['reaction'] },
   },
   {
     name: 'distinct-sensors', family: 'sensors ≠ actuators', spec: 'a=1', n: 120, randomSensors: 150,

@@ -109,6 +109,46 @@ function termCheck(f: Findings, name: string, want: number, noise: number): Chec
   return out;
 }
 
+/** Bump radius behind the profile point at x (the operator's pieces, else its one radius). */
+function radiusAt(f: Findings, x: number): number {
+  const segs = (f.operator as { segments?: { bounds: [number, number]; radius: number }[] }).segments;
+  const seg = segs?.find((s) => x >= s.bounds[0] - 1e-12 && x <= s.bounds[1] + 1e-12);
+  if (seg) return seg.radius;
+  const r = (f.evidence.operator?.plot as { radius?: number } | undefined)?.radius;
+  return typeof r === 'number' ? r : 0;
+}
+
+/** A coefficient profile point by point: worst relative error (noise ≤ 0.01) and band coverage. */
+function profileCheck(f: Findings, p: NonNullable<Expect['profiles']>[number], noise: number, domainLength: number): Check[] {
+  const t = f.operator.terms.find((x) => x.name === p.term);
+  if (!t || !t.value.length) return [{ what: `${p.term} profile`, outcome: 'unsure', confidence: 1, got: 'none', want: p.label }];
+  const keep = t.x.map((x, i) => i).filter((i) => (p.awayFrom ?? []).every((a) => Math.abs(t.x[i]! - a) >= radiusAt(f, t.x[i]!) + 0.02 * domainLength));
+  if (!keep.length) return [{ what: `${p.term} profile`, outcome: 'unsure', confidence: 1, got: 'no point away from the interfaces', want: p.label }];
+  const out: Check[] = [];
+  if (noise <= 0.01) {
+    const tol = noise === 0 ? 0.05 : 0.10;
+    let worst = 0;
+    for (const i of keep) { const w = p.truth(t.x[i]!); worst = Math.max(worst, Math.abs(t.value[i]! - w) / Math.abs(w)); }
+    out.push({ what: `${p.term} profile`, outcome: worst <= tol ? 'right' : 'wrong', confidence: 1, got: `worst point ${(100 * worst).toFixed(1)} % off`, want: `${p.label} ± ${(100 * tol).toFixed(0)} %` });
+  }
+  const miss = keep.filter((i) => { const w = p.truth(t.x[i]!); return !(t.lower[i]! <= w && w <= t.upper[i]!); }).length;
+  out.push({ what: `${p.term} profile band covers truth`, outcome: miss ? 'wrong' : 'right', confidence: 1, got: miss ? `misses at ${miss} of ${keep.length}` : 'covers', want: 'covers' });
+  return out;
+}
+
+/** A term the operator does not have: not written into the expression, and its band covers 0. */
+function absentCheck(f: Findings, name: string): Check[] {
+  const sig = (f.operator as { significant?: string[] }).significant ?? [];
+  const claimed = sig.includes(name);
+  const out: Check[] = [{ what: `no ${name} term`, outcome: claimed ? 'wrong' : 'right', confidence: 1, got: claimed ? 'claimed' : 'absent', want: 'absent' }];
+  const t = f.operator.terms.find((x) => x.name === name);
+  if (t && t.value.length) {
+    const covered = t.value.every((_, i) => t.lower[i]! <= 0 && 0 <= t.upper[i]!);
+    out.push({ what: `${name} band covers 0`, outcome: covered ? 'right' : 'wrong', confidence: 1, got: covered ? 'covers' : 'misses', want: 'covers' });
+  }
+  return out;
+}
+
 export function score(f: Findings, e: Expect, noise: number, domainLength: number): Check[] {
   const out: Check[] = [];
   if (e.self_adjoint) out.push(verdictCheck('self_adjoint', f.self_adjoint.verdict, e.self_adjoint, conf(f.self_adjoint.confidence)));
@@ -124,8 +164,9 @@ export function score(f: Findings, e: Expect, noise: number, domainLength: numbe
   if (e.singularities) out.push(locationCheck('singularities', f.singularities, e.singularities, 0.02 * domainLength, f.evidence.singularities));
   if (e.coupling) out.push(verdictCheck('coupling', f.coupling.verdict, e.coupling, conf(f.coupling.confidence)));
   if (e.linearity) out.push(verdictCheck('linearity', f.linearity.verdict, e.linearity, conf(f.linearity.confidence)));
-  if (e.coefficients?.diffusion !== undefined) out.push(...termCheck(f, 'diffusion', e.coefficients.diffusion, noise));
-  if (e.coefficients?.reaction !== undefined) out.push(...termCheck(f, 'reaction', e.coefficients.reaction, noise));
+  for (const [name, want] of Object.entries(e.coefficients ?? {})) if (want !== undefined) out.push(...termCheck(f, name, want, noise));
+  for (const p of e.profiles ?? []) out.push(...profileCheck(f, p, noise, domainLength));
+  for (const name of e.absentTerms ?? []) out.push(...absentCheck(f, name));
   return out;
 }
 
