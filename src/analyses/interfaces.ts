@@ -618,7 +618,12 @@ export const interfacesAnalysis: Analysis<F> = {
       return { finding: [], evidence: { statistic: null, noise_floor: null, summary: 'Interfaces are searched for on 1-D kernels only; none are reported for this 2-D kernel.', explanation: EXPLANATION, plot: {} } };
     }
     const res = detectInterfaces(kernel, ctx.noise.replicates);
-    const finding: F = res.interfaces.filter((i) => i.existence >= 0.5).map((i) => ({
+    // listed: a change that probably exists and is located within the estimator's own window
+    // (a change that cannot be placed that well is not a sharp one; it leaves the answer open)
+    const resolution = Math.max(...res.used.map((nm) => res.profiles.blur[nm] ?? 0));
+    const listed = res.interfaces.filter((i) => i.existence >= 0.5 && i.uncertainty <= resolution);
+    const unplaced = res.interfaces.filter((i) => i.existence >= 0.5 && i.uncertainty > resolution).length;
+    const finding: F = listed.map((i) => ({
       location: sig4(i.location), uncertainty: sig4(i.uncertainty), confidence: sig4(i.confidence), existence: sig4(i.existence),
     }));
     const pSharp = res.pSharp;
@@ -632,13 +637,15 @@ export const interfacesAnalysis: Analysis<F> = {
     if (finding.length) { verdict = 'found'; confidence = Math.min(...finding.map((f) => f.confidence)); }
     else {
       confidence = clamp01((1 - pSharp) * power);
-      verdict = power >= 0.5 && confidence >= 0.5 ? 'none' : 'inconclusive';
+      verdict = power >= 0.5 && confidence >= 0.5 && !unplaced ? 'none' : 'inconclusive';
     }
     const summary = finding.length
       ? `${finding.length} interface${finding.length > 1 ? 's' : ''} at ` + finding.map((f) => `x ≈ ${(f.location as number).toFixed(3)} ± ${f.uncertainty.toFixed(3)}`).join(' and ') + ` (probability of a sharp change ${pSharp.toFixed(2)}; evidence: ${res.used.join(', ')}).`
       : verdict === 'none'
         ? `No sharp change of character: the ${res.chosen.model === 'trend' ? 'smooth-trend' : res.chosen.model} description is preferred (probability of a sharp change ${pSharp.toFixed(2)}); a change of the smallest size we report would have been seen with probability ≥ ${power.toFixed(2)} (evidence: ${res.used.join(', ')}).`
-        : `Undecided: no sharp change stands out (probability ${pSharp.toFixed(2)}), but at this noise level a change of the smallest size we report would be seen only with probability ${power.toFixed(2)} (weakest evidence: ${weakest}).`;
+        : unplaced
+          ? `Undecided: a change probably exists (probability ${pSharp.toFixed(2)}) but cannot be placed within the estimator's window of ±${resolution.toFixed(2)} (evidence: ${res.used.join(', ')}).`
+          : `Undecided: no sharp change stands out (probability ${pSharp.toFixed(2)}), but at this noise level a change of the smallest size we report would be seen only with probability ${power.toFixed(2)} (weakest evidence: ${weakest}).`;
     const plot = {
       centers: Array.from(res.profiles.centers),
       features: Object.fromEntries(res.used.map((nm) => [nm, Array.from(res.profiles.features[nm]!, (v) => (Number.isFinite(v) ? sig4(v) : null))])),

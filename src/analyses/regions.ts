@@ -89,7 +89,7 @@ function termMean(t: OperatorTerm, a: number, b: number): number {
   return v.length ? v.reduce((p, q) => p + q, 0) / v.length : NaN;
 }
 
-const EXPLANATION = 'The domain is cut at the interfaces found, and each piece is described by the local evidence pooled over it: whether the kernel\'s columns show a drift (transport), an oscillation (wave-like) or an exponential decay (screening, reaction) beyond what plain diffusion gives, each judged against its spread over resampled kernels. A fourth-order or non-local operator found by the order and locality analyses overrides this. Coefficients are averages of the operator analysis\' profiles over the region where available.';
+const EXPLANATION = 'The domain is cut at the interfaces found, and each piece is described by the local evidence pooled over it: whether the kernel\'s columns show a drift (transport), an oscillation (wave-like) or an exponential decay (screening, reaction) beyond what plain diffusion gives, each judged against its spread over resampled kernels. A fourth-order or non-local operator found by the order and locality analyses overrides this. Coefficients are averages of the operator analysis\' profiles over the region where available. When the fitted kernel is too coarse to show structure on the scale of our local windows, a character read from them is given at most even odds.';
 
 export const regions: Analysis<F> = {
   key: 'regions',
@@ -105,6 +105,11 @@ export const regions: Analysis<F> = {
     const locality = ctx.results.locality?.finding as Findings['locality'] | undefined;
     const terms = (ctx.results.operator?.finding as Findings['operator'] | undefined)?.terms ?? [];
     const ev = regionEvidence(kernel, ctx.noise.replicates, cuts);
+    // the local evidence reads the kernel on windows of full width 0.1 L (interfaces.ts); a
+    // fitted kernel expanded in K basis functions per axis does not resolve structure finer
+    // than about L / K, so when L / K exceeds the window the local character is not resolved
+    const K = Number(ctx.fit?.hyperparameters?.['basis_size']);
+    const resolved = !(Number.isFinite(K) && K > 0 && 1 / K > 0.1);
     const finding: F = ev.map((r) => {
       const len = r.bounds[1] - r.bounds[0];
       // dimensionless size over the region: Péclet-like |β|ℓ and √|γ|ℓ (features are scaled by L)
@@ -125,7 +130,13 @@ export const regions: Analysis<F> = {
         else { character = 'advection-diffusion'; confidence = cDrift; }
       }
       if (order && order.estimate === 4 && order.confidence >= 0.5) { character = 'higher-order'; confidence = order.confidence; }
-      if (locality && locality.verdict === 'nonlocal') { character = 'nonlocal'; confidence = 0.8; }
+      if (locality && locality.verdict === 'nonlocal') {
+        // the locality analysis' own confidence, lowered when the local evidence clearly shows a
+        // differential character (drift or oscillation/decay) that contradicts it
+        const cNl = typeof locality.confidence === 'number' ? locality.confidence : 0.5;
+        const cLocal = hasDrift || hasWave ? confidence : 0;
+        character = 'nonlocal'; confidence = Math.min(cNl, 1 - cLocal);
+      }
       const coefficients: Record<string, number> = {};
       let source = 'operator analysis';
       for (const t of terms) { const m = termMean(t, r.bounds[0], r.bounds[1]); if (Number.isFinite(m)) coefficients[t.name] = sig4(m); }
@@ -138,9 +149,11 @@ export const regions: Analysis<F> = {
           if (character === 'reaction-diffusion' || character === 'wave') coefficients['reaction'] = sig4(-a * Math.sign(r.wave) * (r.wave / L) ** 2);
         }
       }
+      // unresolved local evidence: at most even odds for a character read from it
+      if (!resolved && character !== 'higher-order' && character !== 'nonlocal') confidence = Math.min(confidence, 0.5);
       return {
         bounds: [sig4(r.bounds[0]), sig4(r.bounds[1])] as [number, number], character, coefficients,
-        confidence: sig4(Math.max(0, Math.min(1, confidence))), coefficients_source: source,
+        confidence: sig4(Math.max(0, Math.min(1, confidence))), coefficients_source: source, resolved,
         local: { drift: sig4(r.drift / L), drift_sd: sig4(r.driftSd / L), wave: sig4(r.wave / L), wave_sd: sig4(r.waveSd / L) },
       };
     });
