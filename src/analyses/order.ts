@@ -22,7 +22,7 @@ import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul } from '../linalg/dense.js';
 import { replicates, deviations, weightsOut, sqrtWeighted, topSvd, analysisRng, spectralNorm, decide, sig, round3, median, std, colocated, type TopSvd } from './util/a_common.js';
-import { diagonalSlopeJump } from './translation.js';
+import { jointSlopeJump } from './translation.js';
 
 type F = Findings['order'];
 
@@ -103,20 +103,23 @@ export function decayFit(s: ArrayLike<number>, lo: number, hi: number): DecayFit
   return { exponent: -p.b, rate: -e.b, ssPower: p.ss, ssExp: e.ss, lo, hi };
 }
 
-/** Normalised slope jump |[∂xG]| / max|∂xG| per column (1-D, co-located): median over interior columns. */
+/** Normalised slope jump |mean [∂xG]| / median max|∂xG| over interior columns (1-D, co-located; joint |t|-kink fit per column). */
 export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[]): { value: number; scale: number[] } {
   const n = x.length;
   const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
   const xs = Float64Array.from(ord, (i) => x[i]!);
   const P = zeros(n, n);
   for (let a = 0; a < n; a++) for (let b = 0; b < n; b++) P.data[a * n + b] = G.data[ord[a]! * G.cols + ord[b]!]!;
-  const jp = diagonalSlopeJump(P, xs);
+  const jp = jointSlopeJump(P, xs);
   const sc = scale ?? jp.idx.map((j) => {
     let m = 0;
     for (let i = 1; i < n; i++) m = Math.max(m, Math.abs(P.data[i * n + j]! - P.data[(i - 1) * n + j]!) / (xs[i]! - xs[i - 1]!));
     return m || 1;
   });
-  return { value: median(jp.jump.map((v, q) => Math.abs(v) / sc[q]!)), scale: sc };
+  // pooled over columns: the jump has one sign along the whole diagonal (−1/a(s) < 0), so its mean
+  // keeps the signal while the noise of many columns averages out
+  const ms = median(sc);
+  return { value: Math.abs(jp.jump.reduce((t, v) => t + v, 0) / Math.max(1, jp.jump.length)) / ms, scale: sc };
 }
 
 /** Combine two independent probabilities for the same hypothesis (equal priors). */
