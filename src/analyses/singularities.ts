@@ -316,12 +316,13 @@ export function findSingularities(G: Mat, homogeneous: Float64Array | null, kern
  * A·tanh((x − x0)/δ) added to u_h with A a quarter of u_h's range, and a smoothed kink
  * A·δ·log cosh((x − x0)/δ) added to the middle row of G with A a quarter of the row's largest
  * slope (our convention: a feature that changes the function by a quarter), δ = max(2h, 0.01 L),
- * at three fixed places; power = fraction recovered within the location tolerance. The feature
+ * at three fixed places; power = fraction recovered within the location tolerance (null for
+ * u_h when there is no u_h to scan). The feature
  * is added to resampled kernels (replicate k for place k) so that it must survive the fit's
  * resampling noise, not only the smoothness of the point estimate. u_h counts only when it
  * stands above its replicate spread.
  */
-export function detectionPower(G: Mat, homogeneous: Float64Array | null, kernel: Kernel, hSd: Float64Array | null, reps: Mat[] = [], hreps: Float64Array[] = []): { homogeneous: number; kernel: number } {
+export function detectionPower(G: Mat, homogeneous: Float64Array | null, kernel: Kernel, hSd: Float64Array | null, reps: Mat[] = [], hreps: Float64Array[] = []): { homogeneous: number | null; kernel: number } {
   const [lo, hi] = bounds1d(kernel);
   const L = hi - lo;
   const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
@@ -331,7 +332,7 @@ export function detectionPower(G: Mat, homogeneous: Float64Array | null, kernel:
   const delta = Math.max(2 * h, 0.01 * L);
   const places = [0.27, 0.5, 0.73].map((f) => lo + f * L);
   const recovered = (x: Float64Array, f: Float64Array, x0: number, maxTerms: number) => scanPoles(x, f, { lo, hi, maxTerms }).clusters.some((c) => Math.abs(c.location - x0) < tol);
-  let pH = 0, pK = 0;
+  let pH: number | null = null, pK = 0;
   const sortedOut = Array.from(xOut).every((v, i, a) => i === 0 || v > a[i - 1]!);
   if (homogeneous && homogeneous.length >= nOut && sortedOut && homogeneousSignificant(homogeneous.subarray(0, nOut), hSd, responseScale(G, L))) {
     const u = homogeneous.subarray(0, nOut);
@@ -442,10 +443,11 @@ export const singularities: Analysis<F> = {
     // would have been found at this noise level (injection test on u_h and on a row of G)
     let verdict: 'found' | 'none' | 'inconclusive' = 'found';
     let confidence = finding.length ? Math.min(...finding.map((f) => f.confidence)) : 0;
-    let power: { homogeneous: number; kernel: number } | null = null;
+    let power: { homogeneous: number | null; kernel: number } | null = null;
     if (!finding.length) {
       power = detectionPower(block(kernel.G), kernel.homogeneous, kernel, hSd, reps.map(block), hrepsAll);
-      const pw = Math.max(power.homogeneous, power.kernel);
+      // both routes must see it: a layer of u_h (when u_h is there to scan) and a kink of G
+      const pw = power.homogeneous === null ? power.kernel : Math.min(power.homogeneous, power.kernel);
       const strongestRejected = main.found.length ? Math.max(...main.found.map((q) => separationConfidence(q.influence, q.noise))) : 0;
       // a candidate seen in the kernel but not confirmed by the replicates leaves the answer open
       confidence = clamp01(pw * (1 - strongestRejected));
@@ -455,8 +457,8 @@ export const singularities: Analysis<F> = {
     const summary = finding.length
       ? `${finding.length} singularit${finding.length > 1 ? 'ies' : 'y'} off the diagonal: ` + finding.map((f) => `x ≈ ${(f.location as number).toFixed(3)} (width ≈ ${f.width.toExponential(1)}, ${f.source}, confidence ${f.confidence.toFixed(2)})`).join('; ') + '.'
       : verdict === 'none'
-        ? `No pole cluster recurs off the diagonal (${main.scans} rational fits${reps.length ? `, ${reps.length} resampled kernels` : ''}); a layer or kink of the smallest size we report would have been found with probability ${Math.max(power!.homogeneous, power!.kernel).toFixed(2)}.`
-        : `Undecided: no pole cluster recurs off the diagonal, but at this noise level a layer or kink of the smallest size we report would be found only with probability ${Math.max(power!.homogeneous, power!.kernel).toFixed(2)}.`;
+        ? `No pole cluster recurs off the diagonal (${main.scans} rational fits${reps.length ? `, ${reps.length} resampled kernels` : ''}); a layer or kink of the smallest size we report would have been found with probability ${pwOf(power).toFixed(2)}.`
+        : `Undecided: no pole cluster recurs off the diagonal, but at this noise level a layer or kink of the smallest size we report would be found only with probability ${pwOf(power).toFixed(2)}.`;
     const evidence: Evidence = {
       statistic: main.found.length ? round(strongest) : null,
       noise_floor: main.found.length ? 3 : null,
@@ -468,6 +470,10 @@ export const singularities: Analysis<F> = {
     return { finding, evidence };
   },
 };
+
+function pwOf(p: { homogeneous: number | null; kernel: number } | null): number {
+  return !p ? 0 : p.homogeneous === null ? p.kernel : Math.min(p.homogeneous, p.kernel);
+}
 
 function round(v: number): number {
   return Number.isFinite(v) ? Number(v.toPrecision(4)) : v;

@@ -6,7 +6,8 @@
  * 0.02 of the domain length; no interface for a smoothly varying coefficient.
  */
 import { describe, it, expect } from 'vitest';
-import { detectInterfaces, localRecurrence } from '../../src/analyses/interfaces.js';
+import { detectInterfaces, localRecurrence, jumpProfile, interfacesAnalysis } from '../../src/analyses/interfaces.js';
+import { Rng } from '../../src/linalg/rng.js';
 import { laplace, piecewise, helmholtz, screened, advdiff, kernel1d, type G1 } from '../helpers/closedForms.js';
 import { modalKernel } from './anaB_helpers.js';
 
@@ -77,5 +78,43 @@ describe('interfaces from local evidence and a step/trend/constant model compari
     // noise-free smooth a(x): the trend model wins outright
     const m0 = modalKernel(smoothA, { rel: 0, reps: 4, seed: 7 });
     expect(detectInterfaces(m0.kernel, m0.replicates).chosen.model).toBe('trend');
+  });
+});
+
+describe('diffusion from the diagonal jump, extrapolated with the local homogeneous solutions', () => {
+  it('is exact for closed-form kernels, boundary layer and fast decay included', () => {
+    // jump condition [∂xG]_{x=s} = −1/a (Stakgold & Holst ch. 1; Coddington & Levinson ch. 7):
+    // (d) −0.05u″ + u′ (a = 0.05, boundary layer of width 0.05 at x = 1) and (c) −u″ + 100u
+    // (a = 1, decay length 0.1); Duffy / Butkovskiy closed forms via closedForms.ts
+    for (const [g, a] of [[advdiff(0.05, 1), 0.05], [screened(10), 1], [laplace(), 1]] as const) {
+      const k = kernel1d(g, 200);
+      const x = k.pointsOut.data, s = k.pointsIn.data;
+      const local = (c: number) => localRecurrence(k.G, x, s, Math.min(0.9, Math.max(0.1, c)), 0.05, 0.03, 3);
+      const j = jumpProfile(k.G, x, s, 0, 1, 0.04, 0.06, local);
+      expect(j.s.length).toBeGreaterThan(100);
+      for (const v of j.v) expect(Math.abs(v - Math.log(1 / a))).toBeLessThan(5e-3);
+    }
+  });
+
+  it('no interface is listed for a uniform transport or screened medium at any fit noise; undecided answers say so', () => {
+    // uniform media (entries (c), (d)): any listed interface is a false alarm
+    for (const g of [advdiff(0.05, 1), advdiff(0.05, -1), screened(10)]) {
+      for (const rel of [0, 0.01, 0.1, 1]) {
+        const m = modalKernel(g, { rel, reps: 8, seed: 11 });
+        const out = interfacesAnalysis.run(m.kernel, { noise: { replicates: m.replicates, homogeneousReplicates: [], source: 'bootstrap', assumption: 'test' }, rng: new Rng(1), options: {}, results: {} });
+        expect(out.finding).toEqual([]);
+        expect(['none', 'inconclusive']).toContain(out.evidence.verdict);
+      }
+    }
+  });
+
+  it('a real interface missed at high fit noise is reported as inconclusive, never as absent', () => {
+    // entry (e): a = 1 | 10 at 0.4
+    for (const rel of [0.3, 1]) {
+      const m = modalKernel(piecewise(1, 10, 0.4), { rel, reps: 8, seed: 3 });
+      const out = interfacesAnalysis.run(m.kernel, { noise: { replicates: m.replicates, homogeneousReplicates: [], source: 'bootstrap', assumption: 'test' }, rng: new Rng(1), options: {}, results: {} });
+      const right = out.finding.length === 1 && Math.abs((out.finding[0]!.location as number) - 0.4) < 0.02;
+      if (!right) expect(out.evidence.verdict).toBe('inconclusive');
+    }
   });
 });

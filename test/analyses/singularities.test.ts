@@ -80,3 +80,23 @@ describe('singularities analysis on kernels', () => {
     expect(Math.abs((out.finding[0]!.location as number) - 0.4)).toBeLessThan(0.02);
   });
 });
+
+describe('singularity verdicts: numerically zero u_h, undecided at high noise', () => {
+  const ctxOf = (m: ReturnType<typeof modalKernel>) => ({ noise: { replicates: m.replicates, homogeneousReplicates: m.homogeneousReplicates, source: 'bootstrap' as const, assumption: 'test' }, rng: new Rng(1), options: {}, results: {} });
+  it('a homogeneous part at round-off level (1e-12 of the response) is not scanned', () => {
+    // −u″ (entry (a), Stakgold & Holst) with u_h = 0 up to round-off, shaped like a smooth bump
+    const m = modalKernel(laplace(), { rel: 0, reps: 6, seed: 2, homogeneous: (t) => 1e-12 * Math.sin(7 * t) ** 3 });
+    const out = singularities.run(m.kernel, ctxOf(m));
+    expect(out.finding).toEqual([]);
+    expect(out.evidence.verdict).toBe('none');
+  });
+  it('a layer tanh((x − 0.45)/0.02) drowned in noise is never reported absent', () => {
+    // noise sd 0.5 on a unit-amplitude layer (pole pair at 0.45 ± iπ·0.02/2, exact)
+    for (const seed of [1, 2, 3]) {
+      const m = modalKernel(laplace(), { rel: 0.3, reps: 6, seed, homogeneous: (t) => Math.tanh((t - 0.45) / 0.02), hNoise: 0.5 });
+      const out = singularities.run(m.kernel, ctxOf(m));
+      const right = out.finding.length === 1 && Math.abs((out.finding[0]!.location as number) - 0.45) < 0.02;
+      if (!right) expect(out.evidence.verdict).toBe('inconclusive');
+    }
+  });
+});
