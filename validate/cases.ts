@@ -21,6 +21,8 @@ export interface Expect {
   singularities?: number[];
   coupling?: 'none' | 'one-way' | 'two-way';
   linearity?: 'linear' | 'nonlinear';
+  /** region characters at probe points away from interfaces (the region containing `at` must have this character) */
+  regions?: { at: number; character: string }[];
   /** constant coefficients of the operator (checked against operator.terms' interior mean) */
   coefficients?: { diffusion?: number; reaction?: number; advection?: number; 'fourth-order'?: number };
   /**
@@ -53,7 +55,7 @@ export interface Case {
 export const cases: Case[] = [
   {
     name: 'uniform-diffusion', family: 'constant coefficients', spec: 'a=1', fast: true,
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'no', screening: 'no', interfaces: [], singularities: [], coefficients: { diffusion: 1 }, absentTerms: ['reaction', 'advection'] },
+    expect: { regions: [{ at: 0.5, character: 'diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'no', screening: 'no', interfaces: [], singularities: [], coefficients: { diffusion: 1 }, absentTerms: ['reaction', 'advection'] },
   },
   {
     name: 'variable-conductivity', family: 'variable coefficients', spec: 'a=1+x^2',
@@ -61,23 +63,23 @@ export const cases: Case[] = [
   },
   {
     name: 'transport-plus-x', family: 'transport', spec: 'a=0.05; b=1', fast: true,
-    expect: { self_adjoint: 'no', transport: '+x', order: 2, locality: 'local', oscillation: 'no', interfaces: [], coefficients: { diffusion: 0.05, advection: 1 }, absentTerms: ['reaction'] },
+    expect: { regions: [{ at: 0.5, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '+x', order: 2, locality: 'local', oscillation: 'no', interfaces: [], coefficients: { diffusion: 0.05, advection: 1 }, absentTerms: ['reaction'] },
   },
   {
     name: 'transport-minus-x', family: 'transport', spec: 'a=0.05; b=-1',
-    expect: { self_adjoint: 'no', transport: '-x', order: 2, locality: 'local', oscillation: 'no', interfaces: [] },
+    expect: { regions: [{ at: 0.5, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '-x', order: 2, locality: 'local', oscillation: 'no', interfaces: [] },
   },
   {
     name: 'helmholtz-k15', family: 'wave', spec: 'c=-225', fast: true,
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'yes', wavenumber: 15, screening: 'no', interfaces: [], coefficients: { diffusion: 1, reaction: -225 } },
+    expect: { regions: [{ at: 0.5, character: 'wave' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'yes', wavenumber: 15, screening: 'no', interfaces: [], coefficients: { diffusion: 1, reaction: -225 } },
   },
   {
     name: 'screened-kappa10', family: 'screening', spec: 'c=100',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'no', screening: 'yes', screeningLength: 0.1, interfaces: [], coefficients: { diffusion: 1, reaction: 100 } },
+    expect: { regions: [{ at: 0.5, character: 'reaction-diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'no', screening: 'yes', screeningLength: 0.1, interfaces: [], coefficients: { diffusion: 1, reaction: 100 } },
   },
   {
     name: 'bar-one-interface', family: 'piecewise', spec: 'a=pw(1,0.4,10)',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
+    expect: { regions: [{ at: 0.2, character: 'diffusion' }, { at: 0.7, character: 'diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
   },
   {
     name: 'bar-two-interfaces', family: 'piecewise', spec: 'a=pw(1,0.3,4,0.7,1)',
@@ -85,7 +87,7 @@ export const cases: Case[] = [
   },
   {
     name: 'diffusion-joined-to-belt', family: 'piecewise', spec: 'a=pw(1,0.55,0.05); b=pw(0,0.55,1)',
-    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, interfaces: [0.55] },
+    expect: { regions: [{ at: 0.25, character: 'diffusion' }, { at: 0.8, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, interfaces: [0.55] },
   },
   {
     name: 'internal-layer', family: 'internal layer', spec: 'a=0.0005; b=2*(0.45-x); left=dirichlet(1); right=dirichlet(-1)',
@@ -93,7 +95,7 @@ export const cases: Case[] = [
   },
   {
     name: 'clamped-beam', family: 'fourth order', spec: 'e=1', fast: true,
-    expect: { self_adjoint: 'yes', transport: 'none', order: 4, locality: 'local', oscillation: 'no', interfaces: [], coefficients: { 'fourth-order': 1 } },
+    expect: { regions: [{ at: 0.5, character: 'higher-order' }], self_adjoint: 'yes', transport: 'none', order: 4, locality: 'local', oscillation: 'no', interfaces: [], coefficients: { 'fourth-order': 1 } },
   },
   {
     name: 'gaussian-nonlocal', family: 'non-local', spec: 'kernel=exp(-((x-s)/0.15)^2)',

@@ -162,6 +162,10 @@ export function score(f: Findings, e: Expect, noise: number, domainLength: numbe
   if (e.screeningLength) out.push(relCheck('screening length', f.screening.length, e.screeningLength, 0.10, conf(f.screening.confidence)));
   if (e.interfaces) out.push(locationCheck('interfaces', f.interfaces, e.interfaces, 0.02 * domainLength, f.evidence.interfaces));
   if (e.singularities) out.push(locationCheck('singularities', f.singularities, e.singularities, 0.02 * domainLength, f.evidence.singularities));
+  if (e.regions) for (const probe of e.regions) {
+    const r = f.regions.find((q) => q.bounds[0] <= probe.at && probe.at <= q.bounds[1]);
+    out.push(verdictCheck(`region character at ${probe.at}`, r ? r.character : null, probe.character, conf(r?.confidence)));
+  }
   if (e.coupling) out.push(verdictCheck('coupling', f.coupling.verdict, e.coupling, conf(f.coupling.confidence)));
   if (e.linearity) out.push(verdictCheck('linearity', f.linearity.verdict, e.linearity, conf(f.linearity.confidence)));
   for (const [name, want] of Object.entries(e.coefficients ?? {})) if (want !== undefined) out.push(...termCheck(f, name, want, noise));
