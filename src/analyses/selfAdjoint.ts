@@ -14,7 +14,8 @@ import type { Findings, Kernel } from '../types.js';
 import type { Context } from './analysis.js';
 import type { Mat } from '../linalg/dense.js';
 import { zeros } from '../linalg/dense.js';
-import { squareView, tile, weightedNorm, replicates, deviations, rms, decide, sig, downsample, domainLength, type SquareView } from './util/a_common.js';
+import { squareView, tile, weightedNorm, replicates, deviations, rms, decide, sig, downsample, domainLength, colocated, type SquareView } from './util/a_common.js';
+import { kernelSpectrum } from './order.js';
 
 type F = Findings['self_adjoint'];
 
@@ -77,11 +78,42 @@ export interface AdjointTest {
   resolution: number;
 }
 
-/** The statistic and its floor; exported for the coupling analysis and for tests. */
-export function adjointTest(kernel: Kernel, reps: Mat[]): AdjointTest {
+/**
+ * Compression onto the kernel's leading right-singular subspace (orthonormal V, weighted
+ * coordinates): B = Vᵀ W^½ G W^½ V. A kernel known only on the forcings' span is G·P; its
+ * leading right-singular vectors lie in that span, and Vᵀ A V is symmetric whenever G is, while
+ * G·P itself is not. Returned in the shape the defect formula expects (unit weights).
+ */
+function compress(G: Mat, w: Float64Array, V: Mat): Mat {
+  const n = G.rows, K = V.cols;
+  const sw = Float64Array.from(w, Math.sqrt);
+  const AV = zeros(n, K);
+  for (let i = 0; i < n; i++) {
+    const o = i * n;
+    for (let j = 0; j < n; j++) { const a = sw[i]! * G.data[o + j]! * sw[j]!; if (a === 0) continue; const vo = j * K; for (let k = 0; k < K; k++) AV.data[i * K + k] += a * V.data[vo + k]!; }
+  }
+  const B = zeros(K, K);
+  for (let i = 0; i < n; i++) for (let k = 0; k < K; k++) { const v = V.data[i * K + k]!; if (v === 0) continue; for (let l = 0; l < K; l++) B.data[k * K + l] += v * AV.data[i * K + l]!; }
+  return B;
+}
+
+/** The statistic and its floor; exported for the coupling analysis and for tests. `span`: compare on this
+ * orthonormal subspace (weighted coordinates) only, for a kernel restricted to the forcings' span. */
+export function adjointTest(kernel: Kernel, reps: Mat[], span?: Mat): AdjointTest {
   const view = squareView(kernel);
   if (!view) return { defect: NaN, floor: NaN, replicateDefects: [], applicable: false, interpolated: false, resolution: NaN };
   const c = kernel.components.in;
+  if (span && !view.interpolated && c === 1 && kernel.components.out === 1) {
+    const one = new Float64Array(span.cols).fill(1);
+    const B = compress(kernel.G, view.w, span);
+    const den = weightedNorm(B, one, one);
+    const devs = deviations(reps).map((d) => compress(d, view.w, span));
+    const rd = devs.map((d) => weightedNorm(skewPart(d), one, one) / den);
+    return {
+      defect: weightedNorm(skewPart(B), one, one) / den, floor: rd.length ? rms(rd) : NaN, replicateDefects: rd, applicable: true, interpolated: false,
+      resolution: adjointResolution(kernel, view, kernel.G, view.w),
+    };
+  }
   const w = tile(view.w, c);
   const G = view.map(kernel.G);
   const den = weightedNorm(G, w, w);
@@ -94,7 +126,16 @@ export function adjointTest(kernel: Kernel, reps: Mat[]): AdjointTest {
 export const selfAdjoint: Analysis<F> = {
   key: 'self_adjoint',
   run(kernel: Kernel, ctx: Context): AnalysisOutput<F> {
-    const t = adjointTest(kernel, replicates(ctx));
+    // a kernel known only on the forcings' span is compared on its leading (identified) subspace
+    const cov = ctx.fit?.coverage;
+    let span: Mat | undefined;
+    if (cov && cov.complete === false && colocated(kernel) && kernel.components.in === 1 && kernel.components.out === 1) {
+      const sp = kernelSpectrum(kernel, replicates(ctx), cov.identified_rank);
+      const K = Math.min(sp.svd.V.cols, Math.max(1, cov.identified_rank));
+      span = zeros(sp.svd.V.rows, K);
+      for (let i = 0; i < span.rows; i++) for (let k = 0; k < K; k++) span.data[i * K + k] = sp.svd.V.data[i * sp.svd.V.cols + k]!;
+    }
+    const t = adjointTest(kernel, replicates(ctx), span);
     const explanation =
       'We compare the kernel with its mirror image G(s, x): a self-adjoint (reciprocal) system responds at x to a source at s exactly as it responds at s to a source at x. ' +
       'The number is the size of the difference relative to the kernel, with each point counted by its quadrature weight. ' +
@@ -125,6 +166,7 @@ export const selfAdjoint: Analysis<F> = {
         ratio: sig(d.z, 3),
         interpolated: t.interpolated,
         resolution: sig(resolution, 3),
+        ...(span ? { compared_on: `the leading ${span.cols} identified directions (the kernel is known only on the forcings' span)` } : {}),
       },
       evidence: {
         statistic: sig(t.defect),
