@@ -212,15 +212,15 @@ function objective4(G: Mat, x: Float64Array, segs: Segment[], theta: number): nu
 /** Fit θ of the fourth-order family: grid in the signed wavenumber, then a shrinking-step search. */
 function fitWave4(G: Mat, x: Float64Array, segs: Segment[], kmax: number, startKs?: number): { theta: number; ks: number; residual: number } {
   const E = energy(G, segs);
-  const dk = (2 * kmax) / 160;
+  const dk = (2 * kmax) / 80;
   let ks: number, f: number;
   if (startKs !== undefined) { ks = startKs; f = objective4(G, x, segs, toTheta(ks)); }
   else {
     ks = 0; f = Infinity;
-    for (let a = 0; a <= 160; a++) { const k = -kmax + a * dk; const v = objective4(G, x, segs, toTheta(k)); if (v < f) { f = v; ks = k; } }
+    for (let a = 0; a <= 80; a++) { const k = -kmax + a * dk; const v = objective4(G, x, segs, toTheta(k)); if (v < f) { f = v; ks = k; } }
   }
-  let step = startKs !== undefined ? dk / 4 : dk / 2;
-  for (let it = 0; it < 60 && step > 1e-7 * (1 + Math.abs(ks)); it++) {
+  let step = startKs !== undefined ? dk / 8 : dk / 2;
+  for (let it = 0; it < (startKs !== undefined ? 30 : 60) && step > 1e-7 * (1 + Math.abs(ks)); it++) {
     const up = objective4(G, x, segs, toTheta(ks + step)), dn = objective4(G, x, segs, toTheta(ks - step));
     if (up < f && up <= dn) { f = up; ks += step; } else if (dn < f) { f = dn; ks -= step; } else step /= 2;
   }
@@ -246,8 +246,6 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   const kmax = Math.min(Math.PI * (n - 1) / (4 * L), 250 / L);
   const f = fitWave(kernel.G, x, segs, kmax, { p: opts.symmetric ? 0 : -(opts.driftRate ?? 0), fixP: opts.symmetric });
   const rf = reps.slice(0, opts.maxReplicates ?? 12).map((R) => fitWave(R, x, segs, kmax, { p: f.p, ks: f.ks, fixP: opts.symmetric }));
-  const f4 = fitWave4(kernel.G, x, segs, kmax);
-  const rf4 = reps.slice(0, opts.maxReplicates ?? 12).map((R) => fitWave4(R, x, segs, kmax, f4.ks));
   const thetaSd = rf.length >= 3 ? std(rf.map((r) => r.theta)) : null;
   const kappa2Sd = rf.length >= 3 ? std(rf.map((r) => r.kappa2)) : null;
   const E = energy(kernel.G, segs);
@@ -263,10 +261,16 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   const allowance = Math.max(Math.SQRT2 * (noiseResidual ?? 0), 0.02);
   const adequate = f.residual <= allowance;
   // θ of the fourth-order family is identified only when plain cubics (θ = 0) do not already explain the segments
-  const cubicResidual = Math.sqrt(objective4(kernel.G, x, segs, 0) / E);
+  // parsimony: the fourth-order family nests the drift-free second-order one, so it is fitted only
+  // when the second-order model does not explain the segments
+  const f4 = adequate ? { theta: NaN, ks: NaN, residual: NaN } : fitWave4(kernel.G, x, segs, kmax);
+  const cubicResidual = adequate ? NaN : Math.sqrt(objective4(kernel.G, x, segs, 0) / E);
+  const adequate4 = !adequate && f4.residual <= allowance, identified = !adequate && cubicResidual > allowance;
+  // replicate refits only when the fourth-order fit can vote (adequate and identified)
+  const rf4 = adequate4 && identified ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, x, segs, kmax, f4.ks)) : [];
   const fourth: FourthOrderWave = {
     theta: f4.theta, residual: f4.residual, thetaSd: rf4.length >= 3 ? std(rf4.map((r) => r.theta)) : null,
-    adequate: f4.residual <= allowance, identified: cubicResidual > allowance, cubicResidual,
+    adequate: adequate4, identified, cubicResidual,
   };
   return {
     noiseResidual, adequate, fourth,
