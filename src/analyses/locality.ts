@@ -87,7 +87,7 @@ export const locality: Analysis<F> = {
       'Because inverting a noisy kernel amplifies the noise, we invert it only on the part the data resolve, with a smooth roll-off, and measure how much of the inverse lies far from the diagonal. ' +
       'The share is placed between two yardsticks computed the same way: a diffusion operator (0) and a completely spread one (1).';
     if (!colocated(kernel) || kernel.components.in !== 1 || kernel.components.out !== 1) {
-      return { finding: { verdict: 'inconclusive', applicable: false }, evidence: { statistic: null, noise_floor: null, summary: 'Locality was not tested: it needs one field on co-located sensors and actuators.', explanation } };
+      return { finding: { verdict: 'inconclusive', confidence: 0.5, applicable: false }, evidence: { statistic: null, noise_floor: null, summary: 'Locality was not tested: it needs one field on co-located sensors and actuators.', explanation } };
     }
     const reps = replicates(ctx);
     const idRank = ctx.fit?.coverage?.identified_rank;
@@ -95,7 +95,7 @@ export const locality: Analysis<F> = {
     const K = sp.trusted;
     const ref = K >= 6 ? laplacianModes(kernel, K) : null;
     if (K < 6 || !ref) {
-      return { finding: { verdict: 'inconclusive', trustworthy_values: K }, evidence: { statistic: null, noise_floor: null, summary: K < 6 ? `Only ${K} trustworthy singular values: too few to judge locality.` : 'Locality needs an interval or a box as domain.', explanation } };
+      return { finding: { verdict: 'inconclusive', confidence: 0.5, trustworthy_values: K }, evidence: { statistic: null, noise_floor: null, summary: K < 6 ? `Only ${K} trustworthy singular values: too few to judge locality.` : 'Locality needs an interval or a box as domain.', explanation } };
     }
     const n = kernel.pointsIn.rows, P = kernel.pointsIn, dim = kernel.dimension;
     const L = domainLength(kernel);

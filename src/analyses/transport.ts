@@ -121,7 +121,7 @@ export const transport: Analysis<F> = {
     const sa = ctx.results['self_adjoint']?.finding as Findings['self_adjoint'] | undefined;
     if (!view) {
       return {
-        finding: { verdict: 'inconclusive', direction: null, peclet: null, applicable: false },
+        finding: { verdict: 'inconclusive', direction: null, peclet: null, confidence: 0.5, applicable: false },
         evidence: { statistic: null, noise_floor: null, summary: 'Transport was not tested: G(x, s) and G(s, x) cannot both be read on these point sets.', explanation },
       };
     }
