@@ -165,40 +165,27 @@ export function setupKink(prep: Prepared, basis: KinkBasis, measuredSets: number
   const rowQ = new Float64Array(nc * F * F), rowR = new Float64Array(nc * F), rowYY = new Float64Array(nc), rowN = new Int32Array(nc);
   const xbar = new Float64Array(nc * F), ubar = new Float64Array(nc);
   const colsOut = nOut * cOut;
-  const Ud = prep.U.data;
-  // scratch for the centred features of one sensor (reused: one Gram per sensor, no allocation per sensor)
-  const Xc = new Float64Array(prep.N * F);
   sweepFeatures(prep, Psi, Kmax, (i, X) => {
     for (let p = 0; p < cOut; p++) {
       const c = p * nOut + i;
       const J = measuredSets[c]!;
       const nJ = J.length;
-      const xo0 = c * F;
+      const xb = xbar.subarray(c * F, (c + 1) * F);
       let ub = 0;
-      for (let n = 0; n < nJ; n++) { const j = J[n]!, xo = j * F; ub += Ud[j * colsOut + c]!; for (let f = 0; f < F; f++) xbar[xo0 + f] += X[xo + f]!; }
+      for (const j of J) { ub += prep.U.data[j * colsOut + c]!; for (let f = 0; f < F; f++) xb[f] += X[j * F + f]!; }
       ub /= nJ;
-      for (let f = 0; f < F; f++) xbar[xo0 + f] /= nJ;
+      for (let f = 0; f < F; f++) xb[f] /= nJ;
       ubar[c] = ub;
+      const r = rowR.subarray(c * F, (c + 1) * F);
+      const Xc = zeros(nJ, F);
       let yy = 0;
-      for (let n = 0; n < nJ; n++) {
-        const j = J[n]!;
-        const u = Ud[j * colsOut + c]! - ub;
+      J.forEach((j, n) => {
+        const u = prep.U.data[j * colsOut + c]! - ub;
         yy += u * u;
         const xo = j * F, co = n * F;
-        for (let f = 0; f < F; f++) { const v = X[xo + f]! - xbar[xo0 + f]!; Xc[co + f] = v; rowR[xo0 + f] += v * u; }
-      }
-      // Q_i = X̃ᵀX̃, upper triangle then mirrored
-      const qo = c * F * F;
-      for (let n = 0; n < nJ; n++) {
-        const co = n * F;
-        for (let f = 0; f < F; f++) {
-          const v = Xc[co + f]!;
-          if (v === 0) continue;
-          const ro = qo + f * F;
-          for (let g = f; g < F; g++) rowQ[ro + g] += v * Xc[co + g]!;
-        }
-      }
-      for (let f = 0; f < F; f++) for (let g = f + 1; g < F; g++) rowQ[qo + g * F + f] = rowQ[qo + f * F + g]!;
+        for (let f = 0; f < F; f++) { const v = X[xo + f]! - xb[f]!; Xc.data[co + f] = v; r[f] += v * u; }
+      });
+      rowQ.set(matmulTN(Xc, Xc).data, c * F * F);
       rowYY[c] = yy;
       rowN[c] = nJ;
     }
