@@ -101,6 +101,14 @@ export const regions: Analysis<F> = {
     const L = bounds1d(kernel)[1] - bounds1d(kernel)[0];
     const ifs = (ctx.results.interfaces?.finding as Findings['interfaces'] | undefined) ?? [];
     const cuts = ifs.map((i) => i.location as number);
+    // the regions are only as certain as their bounds: when the interfaces analysis could not
+    // decide, or an interface's place is uncertain, a region's character cannot be surer
+    const ifVerdict = (ctx.results.interfaces?.evidence as { verdict?: string } | undefined)?.verdict;
+    const boundConf = (a: number, b: number): number => {
+      let c = ifVerdict === 'inconclusive' ? 0.5 : 1;
+      for (const i of ifs) if (Math.abs((i.location as number) - a) < 1e-9 || Math.abs((i.location as number) - b) < 1e-9) c = Math.min(c, i.confidence);
+      return c;
+    };
     const order = ctx.results.order?.finding as Findings['order'] | undefined;
     const locality = ctx.results.locality?.finding as Findings['locality'] | undefined;
     const terms = (ctx.results.operator?.finding as Findings['operator'] | undefined)?.terms ?? [];
@@ -149,6 +157,7 @@ export const regions: Analysis<F> = {
           if (character === 'reaction-diffusion' || character === 'wave') coefficients['reaction'] = sig4(-a * Math.sign(r.wave) * (r.wave / L) ** 2);
         }
       }
+      confidence = Math.min(confidence, boundConf(r.bounds[0], r.bounds[1]));
       // unresolved local evidence: at most even odds for a character read from it
       if (!resolved && character !== 'higher-order' && character !== 'nonlocal') confidence = Math.min(confidence, 0.5);
       return {
