@@ -14,6 +14,8 @@ import { eigSym } from '../src/linalg/decomp.js';
 import { gpDraws } from '../src/design/gp.js';
 import { Rng } from '../src/linalg/rng.js';
 import { cpuSeconds, peakRssMb, row } from './util.js';
+import { spanOracleBound } from '../test/fit/spanBound.js';
+import { prepare } from '../src/fit/prepare.js';
 
 const W = [34, 10, 10, 10, 10, 8, 7];
 
@@ -106,6 +108,13 @@ export async function run(): Promise<boolean> {
     const eK = relativeError(f.kernel.G, sim.truth.kernel.G);
     const eS = relativeError(spanRestricted(sim.truth.kernel.G, sim.study.inputs.values, w), sim.truth.kernel.G);
     check(`2-D noise ${noise}: kernel ÷ span-restricted`, eK / eS, 1.25, [eK, eS, `complete=${f.report.coverage.complete}`]);
+    // reference: the best span-confined estimator with per-direction shrinkage, given the truth's energies
+    // (an oracle; test/fit/spanBound.ts), at the simulated noise σ
+    const sigma = Number((sim.study.extra as { simulation: { noise_sigma: number } }).simulation.noise_sigma);
+    if (noise > 0) {
+      const b = spanOracleBound(sim.truth.kernel.G, prepare(sim.study).FW, w, sigma);
+      console.log(row([`  (info) oracle span-confined Wiener error`, b.wiener, '', 'no target', `${(b.wiener / b.spanRestricted).toFixed(2)}× span`, `fit ${(eK / b.wiener).toFixed(2)}×`], W));
+    }
   }
   // scaling test
   for (const noise of [0, 0.1]) {
