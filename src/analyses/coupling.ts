@@ -91,7 +91,7 @@ export const coupling: Analysis<F> = {
     const view = squareView(kernel);
     if (view && co === ci) {
       const G = view.map(kernel.G);
-      const n = view.x.length;
+      const n = view.w.length;
       const devs = deviations(replicates(ctx).map(view.map));
       const skewOff = (M: Mat) => {
         let s = 0;

@@ -42,7 +42,7 @@ export function adjointDefect(G: Mat, w: Float64Array): number {
  * −εu'' + bu', shared/references entry (d): G = e^{−rs}·(symmetric kernel)). Square view only.
  */
 export function driftedKernel(G: Mat, view: SquareView, dim: number, L: number, pe: number): Mat {
-  const n = G.rows, nx = view.x.length;
+  const n = G.rows, nx = view.w.length;
   const r = pe / L;
   const out = zeros(n, n);
   for (let i = 0; i < n; i++) {

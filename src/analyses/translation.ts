@@ -79,7 +79,7 @@ function projectOut(D: Mat, U: Mat, V: Mat): Mat {
  */
 export function invarianceTest(kernel: Kernel, view: SquareView, reps: Mat[], opts: { margin?: number; rank?: number } = {}): InvarianceTest | null {
   const dim = kernel.dimension;
-  const n = view.x.length;
+  const n = view.w.length;
   const block = (M: Mat): Mat => (M.rows === n ? M : pick(M, Array.from({ length: n }, (_, i) => i)));
   const G = block(view.map(kernel.G));
   const margin = opts.margin ?? (dim === 1 ? 0.05 : 0.1);
@@ -263,7 +263,7 @@ function bestStep(s: number[], y: number[], sd: number[], a: number, b: number):
  * is the smallest non-uniformity worth reporting (our choice, stated in the findings).
  */
 export function graded(G: Mat, view: SquareView, dim: number): Mat {
-  const n = view.x.length;
+  const n = view.w.length;
   let lo = Infinity, hi = -Infinity;
   for (let i = 0; i < n; i++) { const v = view.x[i * dim]!; lo = Math.min(lo, v); hi = Math.max(hi, v); }
   const L = hi - lo || 1;
@@ -325,7 +325,7 @@ export interface JumpProfileTest {
  * a change of stiffness shows directly in J. 1-D, co-located square view on sorted points.
  */
 export function jumpProfileTest(G: Mat, view: SquareView, reps: Mat[]): JumpProfileTest | null {
-  const n = view.x.length;
+  const n = view.w.length;
   const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => view.x[a]! - view.x[b]!);
   const xs = ord.map((i) => view.x[i]!);
   const sorted = (M: Mat) => { const P = zeros(n, n); for (let a = 0; a < n; a++) for (let b = 0; b < n; b++) P.data[a * n + b] = M.data[ord[a]! * M.cols + ord[b]!]!; return P; };
@@ -375,7 +375,7 @@ export const translation: Analysis<F> = {
     }
     const dim = kernel.dimension;
     const G = view.map(kernel.G);
-    const n = view.x.length;
+    const n = view.w.length;
     const scalar = G.rows === n;
     const yard = scalar ? invarianceTest({ ...kernel, G: graded(G, view, dim), pointsOut: kernel.pointsIn }, { ...view, map: (M) => M }, []) : null;
     // the yardstick's residual contains the kernel's own (noise and all); remove it (they add in quadrature)
@@ -399,7 +399,9 @@ export const translation: Analysis<F> = {
     } else { verdict = 'inconclusive'; confidence = 0.5; }
     let isotropic: YesNo | undefined;
     let isoConf: number | undefined;
-    if (test.isoDefect !== undefined) {
+    // a kernel known only on the forcings' span is not expected to keep the domain's symmetry: not tested
+    const restricted = ctx.fit?.coverage?.complete === false;
+    if (test.isoDefect !== undefined && !restricted) {
       // isotropy: the kernel against its quarter-turned copy (same domain, same points); same yardstick
       const di = decide(test.isoDefect, test.isoFloor!, res);
       isotropic = di.decision === 'present' ? 'no' : di.decision === 'absent' ? (verdict === 'yes' ? 'yes' : 'inconclusive') : 'inconclusive';

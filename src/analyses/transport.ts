@@ -23,7 +23,7 @@ type F = Findings['transport'];
 
 /** Net skew mass (1-D: a number in [−1, 1]; 2-D: a 2-vector); G square on the view's points. */
 export function skewMass(G: Mat, view: SquareView, dim: number, c: number, den: number): number[] {
-  const n = view.x.length;
+  const n = view.w.length;
   const w = view.w, x = view.x;
   const out = new Array<number>(dim).fill(0);
   for (let b = 0; b < c; b++) {
@@ -43,7 +43,7 @@ export function skewMass(G: Mat, view: SquareView, dim: number, c: number, den: 
 }
 
 function absMass(G: Mat, view: SquareView, c: number): number {
-  const n = view.x.length;
+  const n = view.w.length;
   let s = 0;
   for (let b = 0; b < c; b++) {
     const o = b * n;
@@ -58,7 +58,7 @@ function absMass(G: Mat, view: SquareView, c: number): number {
  * followed by one pass that drops residuals beyond 3 robust standard deviations.
  */
 export function driftRate(G: Mat, sd: Float64Array | null, view: SquareView, dim: number): number[] | null {
-  const n = view.x.length, x = view.x;
+  const n = view.w.length, x = view.x;
   let gmax = 0;
   for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) gmax = Math.max(gmax, Math.abs(G.data[i * G.cols + j]!));
   if (!(gmax > 0)) return null;
@@ -141,7 +141,7 @@ export const transport: Analysis<F> = {
     const dT = decide(mag, floor, numberOption(ctx, 'transportResolution', res));
 
     // drift rate and Péclet number (first diagonal block)
-    const n = view.x.length;
+    const n = view.w.length;
     const sub = (M: Mat): Mat => {
       if (c === 1) return M;
       const out = { rows: n, cols: n, data: new Float64Array(n * n) };

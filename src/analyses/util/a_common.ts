@@ -208,27 +208,29 @@ export type Decision = 'present' | 'absent' | 'inconclusive';
 /**
  * Three-way decision on an effect whose size is `stat` (≥ 0) when pure noise would give
  * about `floor` (one standard unit). Our rule, stated once for all analyses:
- *  - present when stat ≥ 3·floor (confidence Φ(z − 2), the shared separationConfidence map;
- *    "3 sigma to claim" is common practice);
- *  - absent only by an equivalence test: the one-sided 95 % upper bound stat + 1.645·floor lies
- *    below `resolution`, the smallest effect worth reporting (two one-sided tests, Schuirmann,
- *    J. Pharmacokinet. Biopharm. 15 (1987)); confidence Φ((resolution − stat)/floor − 1), one
- *    unit held back for the floor's own uncertainty. A statistic merely "within the noise" is
- *    not evidence of absence when the noise is as large as the effects of interest;
- *  - inconclusive otherwise (confidence 0.5: the data do not decide).
+ *  - absent when the effect is confidently smaller than `resolution`, the smallest effect worth
+ *    reporting: the one-sided 95 % upper bound stat + 1.645·floor lies below it (two one-sided
+ *    tests, Schuirmann, J. Pharmacokinet. Biopharm. 15 (1987)); confidence
+ *    Φ((resolution − stat)/floor − 1), one unit held back for the floor's own uncertainty.
+ *    This comes first: a difference that is statistically clear but immaterial (round-off, a
+ *    fit's tiny bias) is not reported as an effect;
+ *  - present when stat ≥ 3·floor ("3 sigma to claim", common practice; confidence Φ(z − 2), the
+ *    shared separationConfidence map);
+ *  - inconclusive otherwise (confidence 0.5: the data do not decide). A statistic merely "within
+ *    the noise" is not evidence of absence when the noise is as large as the effects of interest.
  * A floor that is unknown (NaN, no replicates) decides nothing; a floor of exactly 0 (exact
- * replicates) makes any positive statistic present.
+ * replicates) decides by the resolution alone.
  */
 export function decide(stat: number, floor: number, resolution: number): { decision: Decision; confidence: number; z: number } {
   if (!Number.isFinite(stat) || !(floor >= 0)) return { decision: 'inconclusive', confidence: 0.5, z: NaN };
   const f = floor;
   const z = f > 0 ? stat / f : (stat > 0 ? Infinity : 0);
-  if (z >= 3) return { decision: 'present', confidence: clamp01(round3(normalCdf(z - 2))), z };
-  if (f === 0) return stat < resolution ? { decision: 'absent', confidence: 0.99, z } : { decision: 'inconclusive', confidence: 0.5, z };
+  if (f === 0) return stat < resolution ? { decision: 'absent', confidence: 0.99, z } : { decision: 'present', confidence: 0.99, z };
   if (stat + EQUIVALENCE_Z * f < resolution) {
     const c = Math.min(0.99, normalCdf((resolution - stat) / f - 1));
     return { decision: 'absent', confidence: clamp01(round3(c)), z };
   }
+  if (z >= 3) return { decision: 'present', confidence: clamp01(round3(normalCdf(z - 2))), z };
   return { decision: 'inconclusive', confidence: 0.5, z };
 }
 
