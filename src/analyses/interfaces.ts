@@ -545,7 +545,8 @@ export interface InterfaceResult {
   power: Record<string, number>;
 }
 
-function block00(kernel: Kernel, G: Mat): Mat {
+/** The (component 1, component 1) block of a kernel-shaped matrix (the matrix itself for scalar kernels). */
+export function block00(kernel: Kernel, G: Mat): Mat {
   const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
   if (G.rows === nOut && G.cols === nIn) return G;
   const d = new Float64Array(nOut * nIn);

@@ -11,7 +11,7 @@ import type { Analysis, AnalysisOutput, Context } from './analysis.js';
 import { separationConfidence, normalCdf } from './analysis.js';
 import type { Findings, Kernel, Evidence, RegionCharacter, OperatorTerm } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { localProfiles, type Profiles } from './interfaces.js';
+import { localProfiles, block00, type Profiles } from './interfaces.js';
 
 type F = Findings['regions'];
 
@@ -33,14 +33,6 @@ function regionMedian(p: Profiles, name: string, a: number, b: number, pad: numb
   const v: number[] = [];
   for (let k = 0; k < p.centers.length; k++) if (p.centers[k]! > a + pad && p.centers[k]! < b - pad) v.push(f[k]!);
   return median(v);
-}
-
-function block00(kernel: Kernel, G: Mat): Mat {
-  const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
-  if (G.rows === nOut && G.cols === nIn) return G;
-  const d = new Float64Array(nOut * nIn);
-  for (let i = 0; i < nOut; i++) for (let j = 0; j < nIn; j++) d[i * nIn + j] = G.data[i * G.cols + j]!;
-  return { rows: nOut, cols: nIn, data: d };
 }
 
 function sens(p: Profiles, name: string, a: number, b: number, pad: number): number {
