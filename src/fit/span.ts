@@ -18,11 +18,12 @@ import type { Prepared } from './prepare.js';
 import { tensorAxes } from '../quadrature.js';
 import type { Constraint } from './kink1d.js';
 import { type CoreFit, scalingTest, responseSize } from './core.js';
+import { singularKernel, singularResponses, singularCoefficients, subtractSingular, type SingularForm } from './spanSingular.js';
 
-interface Prior { name: string; kind: 'white' | Covariance; lengthScale: number }
+export interface Prior { name: string; kind: 'white' | Covariance; lengthScale: number }
 
 /** K W F̃ᵀ for the prior (nIn·cIn × N), with F̃W given (N × nIn·cIn). */
-function priorTimes(prep: Prepared, prior: Prior, FWc: Mat, Kcache: Map<string, Mat>): Mat {
+export function priorTimes(prep: Prepared, prior: Prior, FWc: Mat, Kcache: Map<string, Mat>): Mat {
   const n = prep.nIn, cIn = prep.cIn, N = FWc.rows;
   const out = zeros(n * cIn, N);
   if (prior.kind === 'white') {
@@ -45,7 +46,7 @@ function priorTimes(prep: Prepared, prior: Prior, FWc: Mat, Kcache: Map<string, 
   return out;
 }
 
-function centred(prep: Prepared, J: number[]): Mat {
+export function centred(prep: Prepared, J: number[]): Mat {
   const cols = prep.nIn * prep.cIn;
   const out = zeros(J.length, cols);
   for (let c = 0; c < cols; c++) {
@@ -60,6 +61,9 @@ function centred(prep: Prepared, J: number[]): Mat {
 interface SpanSolve {
   /** T = K W F̃ᵀ V (D + λ)⁻¹ Vᵀ (nIn·cIn × N): g_i = T ũ_i */
   T: Mat;
+  /** eigenvectors V and eigenvalues d of A = F̃ W K W F̃ᵀ */
+  V: Mat;
+  d: Float64Array;
   lambda: number;
   dof: number;
   rss: number;
@@ -67,7 +71,7 @@ interface SpanSolve {
 }
 
 /** GCV over λ for complete rows Ũ (rows × N) given A = F̃ W K W F̃ᵀ. */
-function gcvRows(A: Mat, KWF: Mat, Uc: Mat, nObs: number, fixedLambda?: number): SpanSolve {
+export function gcvRows(A: Mat, KWF: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0): SpanSolve {
   const N = A.rows, rows = Uc.rows;
   const e = eigSym(A);
   const d = Float64Array.from(e.values, (v) => Math.max(v, 0));
@@ -82,7 +86,7 @@ function gcvRows(A: Mat, KWF: Mat, Uc: Mat, nObs: number, fixedLambda?: number):
     // directions with d = 0 are unfittable: their energy stays in the residual (included via f = 1)
     const used = c2.reduce((a, b) => a + b, 0);
     rss += Math.max(0, yy - used);
-    dof *= rows;
+    dof = dof * rows + extraDof;
     const den = nObs - dof;
     return { rss, dof, gcv: den > 0 ? (nObs * rss) / (den * den) : Infinity };
   };
@@ -101,7 +105,7 @@ function gcvRows(A: Mat, KWF: Mat, Uc: Mat, nObs: number, fixedLambda?: number):
   const Vs = zeros(N, N);
   for (let a = 0; a < N; a++) for (let m = 0; m < N; m++) Vs.data[a * N + m] = e.vectors.data[a * N + m]! / (d[m]! + lambda);
   const T = matmulNT(matmul(KWF, Vs), e.vectors);
-  return { T, lambda, ...g };
+  return { T, V: e.vectors, d, lambda, ...g };
 }
 
 export function fitPathSpan(prep: Prepared, sets: number[][], o: {
@@ -116,7 +120,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   for (let c = 0; c < colsOut; c++) (sets[c]!.length === N ? complete : partial).push(c);
   const h = medianSpacing(prep.pointsIn);
   const priors: Prior[] = [{ name: 'white', kind: 'white', lengthScale: 0 }];
-  for (const kind of ['se', 'matern52'] as const) for (const m of [1, 2, 4]) priors.push({ name: `${kind}:${m}h`, kind, lengthScale: m * h });
+  for (const kind of ['se', 'matern52'] as const) for (const m of [1, 2, 4, 8]) priors.push({ name: `${kind}:${m}h`, kind, lengthScale: m * h });
   const Kcache = new Map<string, Mat>();
   const FWc = centred(prep, all);
   // centred responses of complete rows (used for the choice of prior and λ)
@@ -132,14 +136,36 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   let nObsChoice = 0;
   for (const c of rowsForChoice) nObsChoice += sets[c]!.length - 1;
   o.progress(`span model: choosing the prior among ${priors.length} and λ by GCV`);
-  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat } | null = null;
+  // singular part of the kernel (spanSingular.ts): scalar 2-D studies with every response measured; the
+  // form (none, logarithmic, r² ln r) and the prior of the remainder are chosen together by GCV
+  const singularForms: SingularForm[] = prep.dimension === 2 && cIn === 1 && cOut === 1 && complete.length === colsOut ? ['log', 'r2log'] : [];
+  const forms = singularForms.map((form) => {
+    const Phi = singularKernel(form, prep.pointsOut, prep.pointsIn, prep.weights);
+    return { form, Phi, Z: singularResponses(Phi, complete, FWc) };
+  });
+  if (forms.length) o.progress('span model: testing a singular part on the diagonal (logarithmic, r² ln r) jointly with the prior');
+  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null } | null = null;
   const tried: string[] = [];
   for (const prior of priors) {
     const KWF = priorTimes(prep, prior, FWc, Kcache);
     const A = matmul(FWc, KWF);
     const sol = gcvRows(A, KWF, Uc, nObsChoice);
     tried.push(`${prior.name}=${sol.gcv.toPrecision(4)}`);
-    if (!best || sol.gcv < best.sol.gcv) best = { prior, sol, KWF, A };
+    if (!best || sol.gcv < best.sol.gcv) best = { prior, sol, KWF, A, form: null, c: null };
+    for (const f of forms) {
+      const c = singularCoefficients(sol.V, sol.d, sol.lambda, f.Z, Uc);
+      const solS = gcvRows(A, KWF, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length);
+      tried.push(`${prior.name}+${f.form}=${solS.gcv.toPrecision(4)}`);
+      if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c };
+    }
+  }
+  const singular = best!.form && best!.c ? { form: best!.form.form, Phi: best!.form.Phi, Z: best!.form.Z, c: best!.c } : null;
+  const singularNotes: Record<string, number | string> = {};
+  if (forms.length) singularNotes.singular_part = singular ? singular.form : 'none';
+  if (singular) {
+    const sorted = Array.from(singular.c).sort((x, y) => x - y);
+    singularNotes.singular_coefficient_median = sorted[sorted.length >> 1]!;
+    notes.push(`a ${singular.form === 'log' ? 'logarithmic (second-order)' : 'r² ln r (fourth-order)'} singularity on the diagonal, its coefficient fitted per sensor, lowered the GCV score; the kernel holds it in full, also where the forcings do not reach (median coefficient ${singularNotes.singular_coefficient_median.toPrecision(3)}${singular.form === 'log' ? ', i.e. 1/a for −∇·(a∇u)' : ''})`);
   }
   const { prior, sol } = best!;
   const hyperX: Record<string, number | string> = {};
@@ -167,11 +193,20 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
       for (let j = 0; j < N; j++) Ucomp.data[r * N + j] = u[j]! - m;
     });
     // optional smoothness prior across sensors (tensor-grid sensors, all rows complete): G ~ MN(0, K_x, K_s)
-    let mapRows = (U: Mat): Mat => matmulNT(U, sol.T);
+    let baseMap = (U: Mat): Mat => matmulNT(U, sol.T);
+    const sing = singular;
+    // with a singular part: c_i by GLS from the rows' data, the span model on the remainder, plus c_i Φ(x_i, ·)
+    const mapRows = !sing ? (U: Mat): Mat => baseMap(U) : (U: Mat): Mat => {
+      const c = singularCoefficients(sol.V, sol.d, sol.lambda, sing.Z, U);
+      const Gm = baseMap(subtractSingular(U, sing.Z, c));
+      complete.forEach((row, r) => { for (let k = 0; k < nI; k++) Gm.data[r * nI + k] += c[r]! * sing.Phi.data[row * nI + k]!; });
+      return Gm;
+    };
     if (complete.length === colsOut && cOut === 1) {
-      const kx = kroneckerChoice(prep, best!.A, best!.KWF, Ucomp, nObsChoice, sol.gcv);
+      const Urem = sing ? subtractSingular(Ucomp, sing.Z, sing.c) : Ucomp;
+      const kx = kroneckerChoice(prep, best!.A, best!.KWF, Urem, nObsChoice, sol.gcv, sing ? complete.length : 0);
       if (kx) {
-        mapRows = kx.map;
+        baseMap = kx.map;
         hyperX.sensor_prior = kx.name; hyperX.sensor_prior_length_scale = kx.lengthScale; hyperX.lambda = kx.lambda;
         hyperX.effective_parameters = kx.dof; gcvX = kx.gcv; rssX = kx.rss; dofX = kx.dof;
         notes.push(`a squared-exponential prior across sensors (length ${kx.lengthScale.toPrecision(3)}) lowered the GCV score; kernel rows are smoothed across neighbouring sensors`);
@@ -267,7 +302,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   }
   return {
     method: 'span model: GP-prior ridge of each kernel row on the forcings\' span (kriging), prior and λ by GCV',
-    hyper: { prior: prior.name, prior_length_scale: prior.lengthScale, lambda: sol.lambda, effective_parameters: sol.dof, priors_tried: tried.join(' '), ...hyperX },
+    hyper: { prior: prior.name, prior_length_scale: prior.lengthScale, lambda: sol.lambda, effective_parameters: sol.dof, priors_tried: tried.join(' '), ...singularNotes, ...hyperX },
     G, uh, rss: rssX, dof: dofX, nObs: nObsChoice, yy: frob2(Uc), gcvMse: gcvX,
     sigma: Math.sqrt(sigma2), replicates: repG, homogeneousReplicates: repUh, scaling, notes,
     constraint: 'none', complete: false, inputDof: nI,
@@ -282,7 +317,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
  * Stegle et al., NeurIPS 2011; Saatçi, PhD thesis, Cambridge 2011). Returns null unless GCV prefers it
  * to the row-wise model (K_x = I).
  */
-function kroneckerChoice(prep: Prepared, A: Mat, KWF: Mat, Uc: Mat, nObs: number, gcvRowwise: number):
+function kroneckerChoice(prep: Prepared, A: Mat, KWF: Mat, Uc: Mat, nObs: number, gcvRowwise: number, extraDof = 0):
   { name: string; lengthScale: number; lambda: number; gcv: number; rss: number; dof: number; map: (U: Mat) => Mat } | null {
   if (prep.dimension !== 2) return null;
   const axes = tensorAxes(prep.pointsOut);
@@ -308,7 +343,7 @@ function kroneckerChoice(prep: Prepared, A: Mat, KWF: Mat, Uc: Mat, nObs: number
     for (let i = 0; i < nx * ny; i++) top = Math.max(top, dx[i]! * da[0]!);
     for (let k = 0; k <= 60; k++) {
       const lam = top * Math.pow(10, -14 + (15 * k) / 60);
-      let rss = 0, dof = 0;
+      let rss = 0, dof = extraDof;
       for (let i = 0; i < nx * ny; i++) for (let q = 0; q < N; q++) {
         const dd = dx[i]! * da[q]!, f = lam / (dd + lam);
         rss += f * f * c2[i * N + q]! ** 2; dof += dd / (dd + lam);

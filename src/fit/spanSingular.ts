@@ -1,0 +1,79 @@
+/**
+ * Singular part of a 2-D kernel for the span model. Forcings with a finite length scale excite only the
+ * smooth input directions, yet most of what a 2-D Green's function holds outside their span is its
+ * diagonal singularity, whose form is fixed by the operator's order: for a second-order operator
+ * −∇·(a∇u) + …, G(x, s) = −ln|x − s| / (2π a(x)) + (smoother), for a fourth-order one (plate)
+ * |x − s|² ln|x − s| / (8π D(x)) + (smoother) (fundamental solutions: Evans, PDE 2nd ed. §2.2.1;
+ * Duffy, Green's Functions with Applications 2001, ch. 5 — from memory). The model for row i is
+ *     g_i(s) = c_i Φ(x_i, s) + r_i(s),   r_i ~ GP(0, τ² K)
+ * with a flat prior on the coefficient c_i (explicit basis functions in a GP: Rasmussen & Williams,
+ * GPML 2006, §2.7), so c_i is the generalised least-squares estimate
+ *     c_i = z_iᵀ (A + λI)⁻¹ ũ_i / z_iᵀ (A + λI)⁻¹ z_i,   z_i = F̃ W Φ(x_i, ·)ᵀ,
+ * and the rest r_i is the span model's fit to ũ_i − c_i z_i. Which Φ (none, logarithmic, r² ln r) is
+ * chosen by GCV, counting one parameter per row for c_i. Pure numerics, no fs.
+ */
+import type { Mat } from '../linalg/dense.js';
+import { zeros, matmul, matmulNT } from '../linalg/dense.js';
+
+export type SingularForm = 'log' | 'r2log';
+
+/**
+ * Φ(x_i, s_k) on (output × input points). Where a sensor sits on an actuator the point value is infinite
+ * (log) and the kernel holds the average over a disk of area w_k centred there, as the forward model's
+ * quadrature does (and as the simulator's truth does): ρ = √(w_k/π), (1/2 − ln ρ)/(2π) for −ln r/(2π) and
+ * ρ²(ln ρ/2 − 1/8)/(8π) for r² ln r/(8π).
+ */
+export function singularKernel(form: SingularForm, pointsOut: Mat, pointsIn: Mat, weightsIn: Float64Array): Mat {
+  const nO = pointsOut.rows, nI = pointsIn.rows;
+  const P = pointsOut.data, S = pointsIn.data;
+  const out = zeros(nO, nI);
+  for (let i = 0; i < nO; i++) for (let k = 0; k < nI; k++) {
+    const r = Math.hypot(P[2 * i]! - S[2 * k]!, P[2 * i + 1]! - S[2 * k + 1]!);
+    const rho = Math.sqrt(Math.max(weightsIn[k]!, 0) / Math.PI);
+    let v: number;
+    if (form === 'log') {
+      // disk average of −ln r/(2π) over radius ρ: (1/2 − ln ρ)/(2π); used for r below ρ as well
+      v = r > rho || rho === 0 ? -Math.log(r) / (2 * Math.PI) : (0.5 - Math.log(rho)) / (2 * Math.PI);
+    } else {
+      // disk average of r² ln r/(8π) over radius ρ: (2/ρ²)∫₀^ρ r³ ln r dr /(8π) = ρ²(ln ρ/2 − 1/8)/(8π)
+      v = r > rho || rho === 0 ? (r > 0 ? (r * r * Math.log(r)) / (8 * Math.PI) : 0) : (rho * rho * (Math.log(rho) / 2 - 1 / 8)) / (8 * Math.PI);
+    }
+    out.data[i * nI + k] = v;
+  }
+  return out;
+}
+
+/** z_i = F̃ W Φ(x_i, ·)ᵀ for the given rows, as (rows × N); FWc is the centred F̃W (N × nI). */
+export function singularResponses(Phi: Mat, rows: number[], FWc: Mat): Mat {
+  const nI = Phi.cols;
+  const sub = zeros(rows.length, nI);
+  rows.forEach((c, r) => sub.data.set(Phi.data.subarray(c * nI, (c + 1) * nI), r * nI));
+  return matmulNT(sub, FWc);
+}
+
+/**
+ * GLS coefficients c_i (flat prior) given the eigen-decomposition A = V diag(d) Vᵀ and λ:
+ * c_i = ⟨V ᵀz_i, Vᵀũ_i⟩_(d+λ)⁻¹ / ⟨Vᵀz_i, Vᵀz_i⟩_(d+λ)⁻¹. Rows whose z_i carries no energy get 0.
+ */
+export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z: Mat, U: Mat): Float64Array {
+  const N = V.rows, rows = Z.rows;
+  const CZ = matmul(Z, V), CU = matmul(U, V);
+  const c = new Float64Array(rows);
+  for (let i = 0; i < rows; i++) {
+    let num = 0, den = 0;
+    for (let m = 0; m < N; m++) {
+      const wgt = 1 / (d[m]! + lambda), z = CZ.data[i * N + m]!;
+      num += wgt * z * CU.data[i * N + m]!;
+      den += wgt * z * z;
+    }
+    c[i] = den > 0 && Number.isFinite(num / den) ? num / den : 0;
+  }
+  return c;
+}
+
+/** U − diag(c) Z (rows × N). */
+export function subtractSingular(U: Mat, Z: Mat, c: Float64Array): Mat {
+  const out = zeros(U.rows, U.cols);
+  for (let i = 0; i < U.rows; i++) for (let j = 0; j < U.cols; j++) out.data[i * U.cols + j] = U.data[i * U.cols + j]! - c[i]! * Z.data[i * U.cols + j]!;
+  return out;
+}
