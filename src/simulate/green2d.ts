@@ -6,7 +6,8 @@
  *    function of −d² + (μ_m + c/a) along the other. For every pair the series runs along the
  *    axis with the larger separation, whose terms decay like exp(−√μ_m · separation), and is
  *    cut when that factor drops below 1e-16.
- *  - disk, Dirichlet, c = 0: the closed form by inversion in the circle.
+ *  - disk, Dirichlet, c = 0: the closed form by inversion in the circle; c ≠ 0: disk.ts
+ *    (free part + image part + a fast-converging Fourier–Bessel remainder).
  * On the diagonal (x = s) G is logarithmically infinite; the truth kernel holds there the
  * average of G over a disk of area w (the point's quadrature weight) centred at the point:
  *   (1/(2πa)) (1/2 − ln ρ) + R(s, s),  ρ = √(w/π),  R = G + ln|x − s|/(2πa) the regular part.
@@ -16,6 +17,7 @@
 import type { Mat } from '../linalg/dense.js';
 import { zeros } from '../linalg/dense.js';
 import type { PdeSpec, SideCondition } from './spec.js';
+import { diskScreenedKernel } from './disk.js';
 
 type Bc = 'dirichlet' | 'neumann';
 
@@ -182,6 +184,7 @@ export function pdeKernel(op: PdeSpec, pOut: Mat, pIn: Mat, wIn: Float64Array): 
   const same = (i: number, k: number) => P[2 * i] === S[2 * k] && P[2 * i + 1] === S[2 * k + 1];
   if (op.domain.kind === 'disk') {
     const { center, radius } = op.domain;
+    if (op.c !== 0) return diskScreenedKernel({ center, radius, a: op.a, c: op.c }, pOut, pIn, wIn);
     for (let i = 0; i < nOut; i++) {
       for (let k = 0; k < nIn; k++) {
         G.data[i * nIn + k] = same(i, k)

@@ -15,6 +15,10 @@
  */
 import { InputError } from '../errors.js';
 import { compileExpr, ExprError } from './expr.js';
+import { diskResonance } from './disk.js';
+
+/** Relative distance |λ² − j²|/j² to a disk eigenvalue below which c is rejected (the kernel would be ≥ 1e6 × its off-resonance size). */
+const RESONANCE_GAP = 1e-6;
 
 /** A coefficient: a number, a formula of x, or pieces separated by breaks (interfaces). */
 export type CoefSpec =
@@ -535,7 +539,14 @@ function interpretPde(seen: Map<string, Item>, domain: PdeSpec['domain'], source
   const sides = { left: side('left', all), right: side('right', all), bottom: side('bottom', all), top: side('top', all), boundary: all };
   if (domain.kind === 'disk') {
     for (const k of ['left', 'right', 'bottom', 'top']) if (seen.has(k)) throw new SpecError(`"${k}" applies to a box; a disk has one "boundary"`, seen.get(k)!.pos);
-    if (all.type !== 'dirichlet' || c !== 0) throw new SpecError('the disk supports −a Δu = f with a Dirichlet boundary (c = 0) only', seen.get('c')?.pos ?? seen.get('boundary')?.pos);
+    if (all.type !== 'dirichlet') throw new SpecError('the disk supports a Dirichlet boundary only (a Neumann disk is not implemented)', seen.get('boundary')?.pos ?? seen.get('bc')?.pos);
+    if (c < 0) {
+      // −aΔu + cu = f has no Green's function when −c/a is a Dirichlet eigenvalue j²/R² of the disk
+      const R = domain.radius, lam = R * Math.sqrt(-c / a), res = diskResonance(lam);
+      if (res && res.gap < RESONANCE_GAP) {
+        throw new SpecError(`-c/a = ${-c / a} is within ${res.gap.toExponential(1)} (relative) of the disk's Dirichlet eigenvalue j²/R² = ${(res.zero / R) ** 2} (angular order ${res.n}): the Green's function does not exist or is dominated by that mode; move c away by more than ${RESONANCE_GAP} relative`, seen.get('c')?.pos);
+      }
+    }
   } else {
     const allNeumann = [sides.left, sides.right, sides.bottom, sides.top].every((s) => s.type === 'neumann');
     if (allNeumann && c === 0) throw new SpecError('pure Neumann with c = 0 has no Green\'s function (constants are in the null space); set c > 0 or a Dirichlet side', seen.get('c')?.pos);
