@@ -22,6 +22,8 @@ export async function run(): Promise<boolean> {
     { name: '1-D cubic 200 pts × 100, amp 0.2:5', spec: 'a=1; cubic=30', pts: grid1(200), count: 100, ls: 0.03, target: 10, amp: [0.2, 5] as [number, number] },
     { name: '2-D box -Δ 50×50 × 300', spec: 'domain=box(0,1,0,1)', pts: grid2(50), count: 300, ls: 0.1, target: 10 },
     { name: '2-D disk -Δ 2500 pts × 300', spec: 'domain=disk(0.5,0.5,0.5)', pts: diskPoints(2500), count: 300, ls: 0.1, target: 10 },
+    { name: '2-D disk -Δu+100u 2500 pts × 300', spec: 'domain=disk(0.5,0.5,0.5); c=100', pts: diskPoints(2500), count: 300, ls: 0.1, target: 10 },
+    { name: '2-D disk -Δu-100u 2500 pts × 300', spec: 'domain=disk(0.5,0.5,0.5); c=-100', pts: diskPoints(2500), count: 300, ls: 0.1, target: 10 },
   ];
   const W = [40, 10, 10, 10, 8];
   console.log(row(['case', 'cpu s', 'wall s', 'target s', 'met'], W));

@@ -4,6 +4,7 @@
  * against scipy.special in test/simulate/diskScreened.test.ts).
  */
 const EULER = 0.5772156649015329;
+const J_SCRATCH = new Float64Array(96);
 
 /**
  * W_0(z) = Σ_m (s z²/4)^m/(m!)² [H_m − γ − ln(z/2)]  (H_m harmonic numbers):
@@ -42,18 +43,49 @@ export function w0DiskMean(Z: number, s: 1 | -1): number {
 /** e^x K_0(x) for x > 2. */
 // 2 < x < 25: trapezoidal rule on K_0(x) = ∫₀^∞ exp(−x cosh t) dt (A&S 9.6.24), exponentially
 // convergent for this analytic integrand (Trefethen & Weideman, SIAM Review 56, 2014); step 0.1
-// keeps the error below e^{x − π²/0.1·…} ≪ 1e-16 relative for x < 25.
+// keeps the error ≪ 1e-16 relative for x < 25. It is sampled once into piecewise Chebyshev
+// interpolants (chebft/chebev: Numerical Recipes 2nd ed. §5.8), evaluated by Clenshaw's recurrence.
 // x ≥ 25: asymptotic expansion A&S 9.7.2, summed to its smallest term.
-function k0Scaled(x: number): number {
-  if (x >= 25) return Math.sqrt(Math.PI / (2 * x)) * asymptoticK(0, x);
-  const h = 0.1;
+function k0ScaledTrapezoid(x: number): number {
   let sum = 0.5;
   for (let k = 1; k < 2000; k++) {
-    const e = x * (Math.cosh(k * h) - 1);
+    const e = x * (Math.cosh(0.1 * k) - 1);
     if (e > 40) break;
     sum += Math.exp(-e);
   }
-  return h * sum;
+  return 0.1 * sum;
+}
+
+const K0_BREAKS = [2, 3, 4.5, 7, 11, 17, 25];
+const K0_DEG = 22;
+const K0_COEF: Float64Array[] = K0_BREAKS.slice(1).map((b, i) => chebFit(k0ScaledTrapezoid, K0_BREAKS[i]!, b, K0_DEG));
+
+function chebFit(f: (x: number) => number, l: number, r: number, M: number): Float64Array {
+  const v = Float64Array.from({ length: M }, (_, k) => f(l + ((r - l) * (1 + Math.cos((Math.PI * (k + 0.5)) / M))) / 2));
+  return Float64Array.from({ length: M }, (_, j) => {
+    let s = 0;
+    for (let k = 0; k < M; k++) s += v[k]! * Math.cos((Math.PI * j * (k + 0.5)) / M);
+    return (2 / M) * s;
+  });
+}
+
+function piece(x: number): number {
+  let i = 0;
+  while (x > K0_BREAKS[i + 1]!) i++;
+  return i;
+}
+
+function clenshaw(c: Float64Array, l: number, r: number, x: number): number {
+  const t = (2 * x - l - r) / (r - l), t2 = 2 * t;
+  let b1 = 0, b2 = 0;
+  for (let j = c.length - 1; j >= 1; j--) { const b0 = t2 * b1 - b2 + c[j]!; b2 = b1; b1 = b0; }
+  return t * b1 - b2 + 0.5 * c[0]!;
+}
+
+function k0Scaled(x: number): number {
+  if (x >= 25) return Math.sqrt(Math.PI / (2 * x)) * asymptoticK(0, x);
+  const i = piece(x);
+  return clenshaw(K0_COEF[i]!, K0_BREAKS[i]!, K0_BREAKS[i + 1]!, x);
 }
 
 /** 1 + (μ−1)/(8x) + (μ−1)(μ−9)/(2!(8x)²) + …, μ = 4ν², to its smallest term (A&S 9.7.2). */
@@ -123,9 +155,8 @@ export function besselJSeq(x: number, n: number, out: Float64Array): void {
 // x ≥ 25: Hankel's asymptotic expansions A&S 9.2.5–9.2.10, summed to the smallest term.
 export function besselY01(x: number): [number, number] {
   if (x >= 25) return [hankelAsymptotic(0, x)[1], hankelAsymptotic(1, x)[1]];
-  const K = Math.ceil(x + 15 + Math.sqrt(40 * x)) + 2;
-  const J = new Float64Array(K + 2);
-  besselJSeq(x, K + 1, J);
+  const J = jScratch(x);
+  const K = J.length - 2;
   const L = Math.log(x / 2) + EULER;
   let s0 = 0, s1 = 0;
   for (let k = 1; 2 * k + 1 <= K + 1; k++) {
@@ -136,6 +167,47 @@ export function besselY01(x: number): [number, number] {
   const y0 = (2 / Math.PI) * (L * J[0]! - 2 * s0);
   const y1 = -(2 / Math.PI) * (J[0]! / x - L * J[1]!) + (2 / Math.PI) * s1;
   return [y0, y1];
+}
+
+/** Y_0(x) by the Neumann series (x < 25). */
+function y0Neumann(x: number): number {
+  const J = jScratch(x);
+  const K = J.length - 2;
+  let s0 = 0;
+  for (let k = 1; 2 * k <= K + 1; k++) s0 += ((k % 2 ? -1 : 1) * J[2 * k]!) / k;
+  return (2 / Math.PI) * ((Math.log(x / 2) + EULER) * J[0]! - 2 * s0);
+}
+
+// For 2 < x < 25, Y_0 = √(2/(πx)) (P sin χ + Q cos χ), χ = x − π/4, with the smooth,
+// non-oscillating P, Q of Hankel's form (A&S 9.2.5–9.2.6) sampled from the Neumann series and
+// J_0 into the same piecewise Chebyshev interpolants as e^x K_0 (Numerical Recipes §5.8).
+const PQ = K0_BREAKS.slice(1).map((b, i) => {
+  const pq = (x: number, which: 0 | 1) => {
+    const J = new Float64Array(4);
+    besselJSeq(x, 1, J);
+    const y = y0Neumann(x), chi = x - Math.PI / 4, f = Math.sqrt((Math.PI * x) / 2);
+    return which === 0 ? f * (J[0]! * Math.cos(chi) + y * Math.sin(chi)) : f * (-J[0]! * Math.sin(chi) + y * Math.cos(chi));
+  };
+  return [chebFit((x) => pq(x, 0), K0_BREAKS[i]!, b, K0_DEG), chebFit((x) => pq(x, 1), K0_BREAKS[i]!, b, K0_DEG)] as const;
+});
+
+/** Y_0(x), x > 0 (without allocation). */
+export function besselY0(x: number): number {
+  if (x >= 25) return hankelAsymptotic(0, x)[1];
+  if (x <= 2) return y0Neumann(x);
+  const i = piece(x);
+  const l = K0_BREAKS[i]!, r = K0_BREAKS[i + 1]!;
+  const P = clenshaw(PQ[i]![0], l, r, x), Q = clenshaw(PQ[i]![1], l, r, x);
+  const chi = x - Math.PI / 4;
+  return Math.sqrt(2 / (Math.PI * x)) * (P * Math.sin(chi) + Q * Math.cos(chi));
+}
+
+/** J_0..J_{K+1}(x) for the Neumann series (x < 25), in a reused buffer (view of length K + 2). */
+function jScratch(x: number): Float64Array {
+  const K = Math.min(Math.ceil(x + 15 + Math.sqrt(40 * x)) + 2, J_SCRATCH.length - 2);
+  const J = J_SCRATCH.subarray(0, K + 2);
+  besselJSeq(x, K + 1, J);
+  return J;
 }
 
 /** [J_ν(x), Y_ν(x)] for large x by Hankel's expansion (A&S 9.2.5–9.2.10), ν = 0 or 1. */

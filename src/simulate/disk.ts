@@ -23,7 +23,7 @@
 // Addition theorems K_0(|x−y|) = Σ ε_n I_n(r<) K_n(r>) cos nθ, Y_0 likewise with J_n, Y_n: A&S 9.1.79 / Watson §11.41.
 import type { Mat } from '../linalg/dense.js';
 import { zeros } from '../linalg/dense.js';
-import { besselJSeq, besselK0, besselK0e, besselY01, w0DiskMean, w0Series } from './bessel.js';
+import { besselJSeq, besselK0, besselK0e, besselY0, besselY01, w0DiskMean, w0Series } from './bessel.js';
 
 export interface DiskParams { center: [number, number]; radius: number; a: number; c: number }
 
@@ -115,13 +115,15 @@ function fillT(m: Model, x: number, N: number, out: Float64Array, sig: Float64Ar
     out[0] = s === 1 ? Math.exp(-lambda) * m.SL : 1 / m.zL[0]!;
     return;
   }
-  const L = Math.max(N, Math.ceil(x + 10 * Math.sqrt(x) + 10)) + 25;
+  // backward start beyond N: the start error shrinks by ~(x/2n)² per step once n > x
+  const L = Math.max(N, Math.ceil(2 * x)) + 14;
   if (s === 1) {
     ratiosBackward(x, 1, L, 1, sig);
-    let prod = 1, S = 1;
-    for (let n = 1; n <= L; n++) { prod *= sig[n]!; S += 2 * prod; if (prod < 1e-18 * S) break; }
-    // T_0 = I_0(x)/I_0(λ) = e^{x−λ} S(λ)/S(x)
-    let t = (Math.exp(x - lambda) * m.SL) / S;
+    // T_0 = I_0(x)/I_0(λ) = I_0(x) e^{−λ} S(λ), I_0 by its positive series (A&S 9.6.12)
+    const q = (x * x) / 4;
+    let term = 1, i0 = 1;
+    for (let k = 1; k < 1000 && term > 1e-17 * i0; k++) { term *= q / (k * k); i0 += term; }
+    let t = i0 * Math.exp(-lambda) * m.SL;
     out[0] = t;
     for (let n = 1; n <= N; n++) { t *= sig[n]! / sigL[n]!; out[n] = t; }
     return;
@@ -147,6 +149,9 @@ function modesFor(m: Model, r2: number, p2: number, q: number): number {
   return N;
 }
 
+/** T_n(λ r) of one point, n = 0..N (cached per point by the kernel builder). */
+interface PointTable { r2: number; T: Float64Array; N: number }
+
 export interface DiskKernelBuilder {
   /** G at one off-diagonal pair (physical coordinates) */
   pair: (x: number, y: number, xi: number, eta: number) => number;
@@ -155,30 +160,43 @@ export interface DiskKernelBuilder {
 }
 
 /** The c ≠ 0 Dirichlet disk Green's function of −aΔu + cu = f. */
-export function diskScreened(p: DiskParams): DiskKernelBuilder {
+export function diskScreened(p: DiskParams): DiskKernelBuilder & {
+  table: (x: number, y: number) => PointTable;
+  pairT: (x: number, y: number, xi: number, eta: number, A: PointTable, B: PointTable) => number;
+  diagonalT: (x: number, y: number, w: number, A: PointTable) => number;
+} {
   if (!(p.c !== 0 && p.a > 0 && p.radius > 0)) throw new Error('diskScreened: needs a > 0, radius > 0, c ≠ 0');
   const m = buildModel(p);
   const { s, lambda } = m;
   const LMAX = NCAP + Math.ceil(lambda + 10 * Math.sqrt(lambda)) + 40;
   const sig = new Float64Array(LMAX + 2), raw = new Float64Array(m.n0 + 2);
   const Tp = new Float64Array(NCAP + 1), Tr = new Float64Array(NCAP + 1), Tq = new Float64Array(NCAP + 1);
-  const W0 = (z: number) => (z <= 2 ? w0Series(z, s) : s === 1 ? besselK0(z) : -(Math.PI / 2) * besselY01(z)[0]);
+  const W0 = (z: number) => (z <= 2 ? w0Series(z, s) : s === 1 ? besselK0(z) : -(Math.PI / 2) * besselY0(z));
   const unit = (x: number, y: number): [number, number] => [(x - p.center[0]) / p.radius, (y - p.center[1]) / p.radius];
+  const table = (x: number, y: number): PointTable => {
+    const [x1, x2] = unit(x, y);
+    const r2 = x1 * x1 + x2 * x2;
+    const N = Math.min(NCAP, 2 * modesFor(m, r2, r2, r2));
+    const T = new Float64Array(N + 1);
+    fillT(m, lambda * Math.sqrt(r2), N, T, sig, raw);
+    return { r2, T, N };
+  };
   // h at a pair of unit-disk points, with the mode number checked against the last terms
-  const h = (x1: number, x2: number, y1: number, y2: number): number => {
+  const h = (x1: number, x2: number, y1: number, y2: number, A: PointTable | null, B: PointTable | null): number => {
     const r2 = x1 * x1 + x2 * x2, p2 = y1 * y1 + y2 * y2;
     const rr = Math.sqrt(r2), pp = Math.sqrt(p2), q = rr * pp;
     const cosT = q > 0 ? Math.max(-1, Math.min(1, (x1 * y1 + x2 * y2) / q)) : 1;
     let N = modesFor(m, r2, p2, q);
     for (;;) {
       fillT(m, lambda * q, N, Tp, sig, raw);
-      fillT(m, lambda * rr, N, Tr, sig, raw);
-      fillT(m, lambda * pp, N, Tq, sig, raw);
+      let ta: Float64Array = Tr, tb: Float64Array = Tq;
+      if (A && A.N >= N) ta = A.T; else fillT(m, lambda * rr, N, Tr, sig, raw);
+      if (B && B.N >= N) tb = B.T; else fillT(m, lambda * pp, N, Tq, sig, raw);
       const cn = m.cn;
-      let sum = cn[0]! * (Tp[0]! - Tr[0]! * Tq[0]!);
+      let sum = cn[0]! * (Tp[0]! - ta[0]! * tb[0]!);
       let cPrev = 1, cCur = cosT, last = 0;
       for (let n = 1; n <= N; n++) {
-        last = 2 * cn[n]! * (Tp[n]! - Tr[n]! * Tq[n]!);
+        last = 2 * cn[n]! * (Tp[n]! - ta[n]! * tb[n]!);
         sum += last * cCur;
         const cNext = 2 * cosT * cCur - cPrev;
         cPrev = cCur; cCur = cNext;
@@ -190,25 +208,28 @@ export function diskScreened(p: DiskParams): DiskKernelBuilder {
     }
   };
   const onBoundary = (r2: number) => r2 >= 1 - 1e-12;
+  const pairT = (x: number, y: number, xi: number, eta: number, A: PointTable | null, B: PointTable | null): number => {
+    const [x1, x2] = unit(x, y), [y1, y2] = unit(xi, eta);
+    const r2 = x1 * x1 + x2 * x2, p2 = y1 * y1 + y2 * y2;
+    if (onBoundary(r2) || onBoundary(p2)) return 0;
+    const d = Math.hypot(x1 - y1, x2 - y2);
+    const ds = Math.sqrt(Math.max(r2 * p2 - 2 * (x1 * y1 + x2 * y2) + 1, 0));
+    const g = (W0(lambda * d) - W0(lambda * ds)) / (2 * Math.PI) + h(x1, x2, y1, y2, A, B);
+    return g / p.a;
+  };
+  const diagonalT = (x: number, y: number, w: number, A: PointTable | null): number => {
+    const [x1, x2] = unit(x, y);
+    const r2 = x1 * x1 + x2 * x2;
+    if (onBoundary(r2)) return 0;
+    const rho = Math.sqrt(w / Math.PI) / p.radius;
+    // exact mean of the free part over the cell, the smooth rest at the centre (error O(ρ²))
+    const g = (w0DiskMean(lambda * rho, s) - W0(lambda * (1 - r2))) / (2 * Math.PI) + h(x1, x2, x1, x2, A, A);
+    return g / p.a;
+  };
   return {
-    pair(x, y, xi, eta) {
-      const [x1, x2] = unit(x, y), [y1, y2] = unit(xi, eta);
-      const r2 = x1 * x1 + x2 * x2, p2 = y1 * y1 + y2 * y2;
-      if (onBoundary(r2) || onBoundary(p2)) return 0;
-      const d = Math.hypot(x1 - y1, x2 - y2);
-      const ds = Math.sqrt(Math.max(r2 * p2 - 2 * (x1 * y1 + x2 * y2) + 1, 0));
-      const g = (W0(lambda * d) - W0(lambda * ds)) / (2 * Math.PI) + h(x1, x2, y1, y2);
-      return g / p.a;
-    },
-    diagonal(x, y, w) {
-      const [x1, x2] = unit(x, y);
-      const r2 = x1 * x1 + x2 * x2;
-      if (onBoundary(r2)) return 0;
-      const rho = Math.sqrt(w / Math.PI) / p.radius;
-      // exact mean of the free part over the cell, the smooth rest at the centre (error O(ρ²))
-      const g = (w0DiskMean(lambda * rho, s) - W0(lambda * (1 - r2))) / (2 * Math.PI) + h(x1, x2, x1, x2);
-      return g / p.a;
-    },
+    pair: (x, y, xi, eta) => pairT(x, y, xi, eta, null, null),
+    diagonal: (x, y, w) => diagonalT(x, y, w, null),
+    table, pairT, diagonalT,
   };
 }
 
@@ -219,10 +240,13 @@ export function diskScreenedKernel(p: DiskParams, pOut: Mat, pIn: Mat, wIn: Floa
   const G = zeros(nOut, nIn);
   const P = pOut.data, S = pIn.data;
   const sym = nOut === nIn && P.every((v, j) => v === S[j]);
+  const tOut = Array.from({ length: nOut }, (_, i) => b.table(P[2 * i]!, P[2 * i + 1]!));
+  const tIn = sym ? tOut : Array.from({ length: nIn }, (_, k) => b.table(S[2 * k]!, S[2 * k + 1]!));
   for (let i = 0; i < nOut; i++) {
     for (let k = sym ? i : 0; k < nIn; k++) {
       const same = P[2 * i] === S[2 * k] && P[2 * i + 1] === S[2 * k + 1];
-      const v = same ? b.diagonal(S[2 * k]!, S[2 * k + 1]!, wIn[k]!) : b.pair(P[2 * i]!, P[2 * i + 1]!, S[2 * k]!, S[2 * k + 1]!);
+      const v = same ? b.diagonalT(S[2 * k]!, S[2 * k + 1]!, wIn[k]!, tIn[k]!)
+        : b.pairT(P[2 * i]!, P[2 * i + 1]!, S[2 * k]!, S[2 * k + 1]!, tOut[i]!, tIn[k]!);
       G.data[i * nIn + k] = v;
       // self-adjoint operator: G(x, s) = G(s, x)
       if (sym && k !== i) G.data[k * nIn + i] = v;
