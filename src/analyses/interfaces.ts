@@ -25,6 +25,7 @@ import { clamp01, normalCdf } from './analysis.js';
 import type { Findings, Kernel, Evidence } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { jumpDiffusion } from './operator.js';
+import { asymmetrySlope, locateDriftChange, locateKink } from './util/a_semisep.js';
 
 type F = Findings['interfaces'];
 
@@ -44,6 +45,14 @@ function bounds1d(k: Kernel): [number, number] {
   let lo = Infinity, hi = -Infinity;
   for (const v of k.pointsOut.data) { lo = Math.min(lo, v); hi = Math.max(hi, v); }
   return [lo, hi];
+}
+
+/** sensors and actuators at the same points (to 1e-9 of the spacing) */
+function colocatedSorted(x: Float64Array, s: Float64Array): boolean {
+  if (x.length !== s.length || x.length < 3) return false;
+  const tol = 1e-9 * Math.abs(x[1]! - x[0]!);
+  for (let i = 0; i < x.length; i++) if (Math.abs(x[i]! - s[i]!) > tol) return false;
+  return true;
 }
 
 function isUniform(x: Float64Array): boolean {
@@ -205,6 +214,17 @@ export function localProfiles(kernel: Kernel, G: Mat, opts: { centers?: number }
       sb[k] = Math.abs(r2.beta * L - fb[k]!);
       sg[k] = Math.abs(wv(r2.gamma) - fg[k]!);
     }
+    if (colocatedSorted(x, s)) {
+      // drift from the kernel's asymmetry, log(G(x, s)/G(s, x)) = ∫ₛˣ b/a (a_semisep.ts): pooled
+      // over all pairs of a window, exact for any second-order operator, so unlike the recurrence
+      // it is not fooled by the kink a change of conductivity puts into the columns
+      // (its systematic error, the fit's ringing, shows as overdispersion in the model comparison)
+      const rate = asymmetrySlope(G, x, centers, w, Math.max(2 * h, 0.01 * L));
+      features['asym_drift'] = Float64Array.from(rate, (v) => -v * L); blur['asym_drift'] = w;
+      // floor of its error: 1 % of the smallest drift change we report (an exactly symmetric
+      // kernel would otherwise give zero spread and weigh round-off without limit)
+      sensitivity['asym_drift'] = new Float64Array(nc).fill(0.01 * MEANINGFUL['asym_drift']!);
+    }
     features['drift'] = fb; blur['drift'] = w; sensitivity['drift'] = sb;
     features['wave'] = fg; blur['wave'] = w; sensitivity['wave'] = sg;
   }
@@ -216,7 +236,9 @@ export function localProfiles(kernel: Kernel, G: Mat, opts: { centers?: number }
     let k = 0;
     for (let q = 1; q < nc; q++) if (Math.abs(centers[q]! - t) < Math.abs(centers[k]! - t)) k = q;
     const g = fg[k]! / L;
-    return { beta: fb[k]! / L, gamma: Math.sign(g) * g * g };
+    // the asymmetry's drift, where available, is the exact local β (a_semisep.ts)
+    const ad = features['asym_drift']?.[k];
+    return { beta: (ad !== undefined && Number.isFinite(ad) ? ad : fb[k]!) / L, gamma: Math.sign(g) * g * g };
   };
   const j1 = uniform ? jumpProfile(G, x, s, lo, hi, gapJ, winJ, localAt) : null;
   const j2 = uniform ? jumpProfile(G, x, s, lo, hi, 1.5 * gapJ, winJ, localAt) : null;
@@ -423,10 +445,10 @@ export function compareModels(p: Profiles, sd: Record<string, Float64Array>, nam
  * The smallest change of each feature we call an interface (our convention, stated in the
  * findings): the conductivity changes by 25 % (|Δ log a| ≥ log 1.25); the drift changes by a
  * Péclet number of one over the domain (|Δβ|L ≥ 1, the size at which transport starts to
- * matter); the oscillation or decay rate changes by a quarter period over the domain
+ * matter; the same for the drift read from the kernel's asymmetry); the oscillation or decay rate changes by a quarter period over the domain
  * (|Δ sign(γ)√|γ|| L ≥ π/2). Smaller changes are not told apart from smooth variation.
  */
-export const MEANINGFUL: Record<string, number> = { log_inv_diffusion: Math.log(1.25), drift: 1, wave: Math.PI / 2 };
+export const MEANINGFUL: Record<string, number> = { log_inv_diffusion: Math.log(1.25), drift: 1, asym_drift: 1, wave: Math.PI / 2 };
 /** a change counts when it is both meaningful and ≥ 3 standard errors (common practice) */
 const SIGNIFICANT = 3;
 
@@ -572,9 +594,19 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
     });
   }
   // keep features defined on most of the domain
-  const used = names.filter((nm) => Array.from(main.features[nm]!).filter(Number.isFinite).length >= 0.7 * main.centers.length);
-  const cmp = compareModels(main, sd, used);
-  const dec = decide(cmp, used);
+  let used = names.filter((nm) => Array.from(main.features[nm]!).filter(Number.isFinite).length >= 0.7 * main.centers.length);
+  let cmp = compareModels(main, sd, used);
+  let dec = decide(cmp, used);
+  if (used.includes('asym_drift') && used.includes('drift')) {
+    // where the kernel's asymmetry shows a real change of drift, the exact asymmetry measure
+    // replaces the recurrence's drift (which the columns' kinks disturb); otherwise the latter
+    // stays as a detector of those kinks
+    const alt = used.filter((nm) => nm !== 'drift');
+    const cmpA = compareModels(main, sd, alt), decA = decide(cmpA, alt);
+    const ia = alt.indexOf('asym_drift');
+    const driftReal = decA.chosen.taus.some((_, t) => Math.abs(decA.chosen.steps[t]![ia]!) >= meaningfulSize('asym_drift') && !(Math.abs(decA.chosen.steps[t]![ia]!) < SIGNIFICANT * decA.chosen.stepSe[t]![ia]!));
+    if (driftReal) { used = alt; cmp = cmpA; dec = decA; }
+  }
   const chosen = dec.chosen;
   const interfaces: InterfaceResult['interfaces'] = [];
   if (chosen.model === 'step' || chosen.model === 'two-steps') {
@@ -587,17 +619,33 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
     const blurMax = Math.max(...used.map((nm) => main.blur[nm]!));
     const xo = kernel.pointsOut.data.slice(0, kernel.pointsOut.rows), si = kernel.pointsIn.data.slice(0, kernel.pointsIn.rows);
     const gapR = Math.max(3 * main.h, 0.03 * (main.hi - main.lo));
-    const refine = (G: Mat, t: number, opChange: boolean) => (uniform ? refineLocation(block00(kernel, G), xo, si, t, blurMax, gapR, opChange) : t);
+    const coloc = colocatedSorted(xo, si);
+    const real = (k: number, nm: string) => { const i = used.indexOf(nm); return i >= 0 && Math.abs(chosen.steps[k]![i]!) >= meaningfulSize(nm) && !(Math.abs(chosen.steps[k]![i]!) < SIGNIFICANT * chosen.stepSe[k]![i]!); };
+    // locate each change on the kernel itself with an exact local model of the change found
+    // (a_semisep.ts), giving a profile-likelihood interval: a change of conductivity is a kink of
+    // the columns' factors; a change of drift alone is a kink of the asymmetry potential ∫ b/a
+    type Loc = { tau: number; halfWidth: number };
+    const refine = (G: Mat, t: number, k: number): Loc => {
+      if (!uniform) return { tau: t, halfWidth: NaN };
+      const B = block00(kernel, G);
+      let loc: Loc | null = null;
+      // the recurrence's drift also jumps at a mere change of conductivity (the columns' kink);
+      // the asymmetry's does not: a recurrence-only change is located as a kink
+      if (real(k, 'asym_drift') && coloc) loc = locateDriftChange(B, xo, t, blurMax, 1.5 * blurMax, Math.max(2 * main.h, 0.01 * (main.hi - main.lo)));
+      else if (real(k, 'log_inv_diffusion') || (used.includes('asym_drift') && real(k, 'drift'))) loc = locateKink(B, xo, si, t, blurMax, 1.5 * blurMax, gapR);
+      if (loc) return loc;
+      const opChange = used.some((nm) => nm !== 'log_inv_diffusion' && real(k, nm));
+      return { tau: refineLocation(B, xo, si, t, blurMax, gapR, opChange), halfWidth: NaN };
+    };
     chosen.taus.forEach((tau0, k) => {
-      // does the local equation change (drift or oscillation), or only the conductivity?
-      const opChange = used.some((nm, i) => nm !== 'log_inv_diffusion' && Math.abs(chosen.steps[k]![i]!) >= meaningfulSize(nm) && !(Math.abs(chosen.steps[k]![i]!) < SIGNIFICANT * chosen.stepSe[k]![i]!));
-      const tau = refine(kernel.G, tau0, opChange);
-      const locs = repTaus.slice(0, 4).map((t, q) => refine(replicates[q]!, t[k]!, opChange)).filter(Number.isFinite);
+      const { tau, halfWidth } = refine(kernel.G, tau0, k);
+      const locs = repTaus.slice(0, 4).map((t, q) => refine(replicates[q]!, t[k]!, k).tau).filter(Number.isFinite);
       let spread = 0;
       if (locs.length > 1) { const m = locs.reduce((a, b) => a + b, 0) / locs.length; spread = Math.sqrt(locs.reduce((a, b) => a + (b - m) ** 2, 0) / (locs.length - 1)); }
-      // uncertainty: replicate spread and the disagreement of the two locators (profile model
-      // and kernel refinement) as a systematic part
-      const unc = Math.max(Math.hypot(spread, Math.abs(tau - tau0) / 2), main.h);
+      // uncertainty: replicate spread, the profile-likelihood half-width and the disagreement of
+      // the profile model and the kernel's own locator (a systematic part)
+      const sys = Number.isFinite(halfWidth) ? Math.hypot(halfWidth, Math.abs(tau - tau0) / 2) : Math.abs(tau - tau0) / 2;
+      const unc = Math.max(Math.hypot(spread, sys), main.h);
       // confidence that a change exists and lies within 2 % of the domain length of the stated
       // location (the location accuracy the issue asks for), the error taken as Gaussian
       const tolLoc = 0.02 * (main.hi - main.lo);

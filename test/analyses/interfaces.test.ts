@@ -118,3 +118,42 @@ describe('diffusion from the diagonal jump, extrapolated with the local homogene
     }
   });
 });
+
+describe('exact-identity locators (a_semisep.ts) on closed-form kernels', () => {
+  it('asymmetry slope log(G(x,s)/G(s,x)) = ∫ b/a: 20 for −0.05u″ + u′, 0 for a symmetric bar', async () => {
+    const { asymmetrySlope } = await import('../../src/analyses/util/a_semisep.js');
+    // entry (d) of shared/references (advection–diffusion, Dirichlet): b/a = 1/0.05 = 20 (Coddington & Levinson ch. 7 symmetrising factor)
+    const k = kernel1d(advdiff(0.05, 1), 200);
+    const c = Float64Array.of(0.3, 0.5, 0.7);
+    const r = asymmetrySlope(k.G, k.pointsOut.data, c, 0.05, 0.01);
+    for (const v of r) expect(v).toBeCloseTo(20, 1);
+    // entry (e) piecewise a: self-adjoint, b = 0 (Stakgold & Holst, from memory)
+    const kb = kernel1d(piecewise(1, 10, 0.4), 200);
+    for (const v of asymmetrySlope(kb.G, kb.pointsOut.data, c, 0.05, 0.01)) expect(Math.abs(v)).toBeLessThan(1e-9);
+  });
+
+  it('kink locator places a = 1 | 10 at 0.4 and a = 1 | 4 | 1 at 0.3, 0.7 within 0.01 from a start 0.05 off', async () => {
+    const { locateKink } = await import('../../src/analyses/util/a_semisep.js');
+    const k = kernel1d(piecewise(1, 10, 0.4), 200);
+    const l = locateKink(k.G, k.pointsOut.data, k.pointsIn.data, 0.45, 0.1, 0.15, 0.03)!;
+    expect(Math.abs(l.tau - 0.4)).toBeLessThan(0.01);
+    const k2 = kernel1d(piecewiseN([1, 4, 1], [0.3, 0.7]), 200);
+    for (const [t0, want] of [[0.35, 0.3], [0.65, 0.7]] as const) {
+      const l2 = locateKink(k2.G, k2.pointsOut.data, k2.pointsIn.data, t0, 0.1, 0.15, 0.03)!;
+      expect(Math.abs(l2.tau - want)).toBeLessThan(0.01);
+    }
+  });
+
+  it('drift locator places the belt edges of b = pw(0,0.3,1,0.7,0), a = 0.05 (simulator kernel) within 0.01', async () => {
+    const { locateDriftChange } = await import('../../src/analyses/util/a_semisep.js');
+    const { parseOperator, greensKernel } = await import('../../src/simulate/index.js');
+    // reference kernel: the simulator's own ODE Green's function (Chebyshev collocation), not a fit
+    const xs = Float64Array.from({ length: 200 }, (_, i) => i / 199);
+    const P = { rows: 200, cols: 1, data: xs };
+    const K = greensKernel(parseOperator('a=0.05; b=pw(0,0.3,1,0.7,0)'), P, P);
+    for (const [t0, want] of [[0.33, 0.3], [0.66, 0.7]] as const) {
+      const l = locateDriftChange(K.G, xs, t0, 0.1, 0.15, 0.01)!;
+      expect(Math.abs(l.tau - want)).toBeLessThan(0.01);
+    }
+  });
+});
