@@ -156,9 +156,54 @@ export function simultaneousZ(m: number): number {
   return 0.5 * (lo + hi);
 }
 
-/** Band half-width: z·√(sd² + se²) (random part) plus the estimated systematic errors. */
-function halfWidth(sd: number, se: number, bias: number, z: number): number {
-  return z * Math.sqrt(sd * sd + se * se) + bias;
+/**
+ * P(|T| ≤ t) for Student's t with ν degrees of freedom (integer ν ≥ 1), in closed form:
+ * Abramowitz & Stegun, Handbook of Mathematical Functions (1964), 26.7.3 (ν odd) and 26.7.4 (ν even).
+ */
+export function studentAbsCdf(t: number, nu: number): number {
+  const n = Math.max(1, Math.round(nu));
+  const th = Math.atan(Math.abs(t) / Math.sqrt(n));
+  const c2 = Math.cos(th) ** 2, sn = Math.sin(th);
+  if (n % 2 === 0) {
+    let term = 1, sum = 1;
+    for (let k = 2; k <= n - 2; k += 2) { term *= (c2 * (k - 1)) / k; sum += term; }
+    return Math.min(1, sn * sum);
+  }
+  if (n === 1) return (2 / Math.PI) * th;
+  let term = Math.cos(th), sum = term;
+  for (let k = 3; k <= n - 2; k += 2) { term *= (c2 * (k - 1)) / k; sum += term; }
+  return Math.min(1, (2 / Math.PI) * (th + sn * sum));
+}
+
+/**
+ * Šidák's simultaneous multiplier for m estimates whose standard error is itself estimated with ν
+ * degrees of freedom: P(|T_ν| ≤ t) = 0.95^(1/m) (Student's t in place of the normal; Šidák 1967).
+ * ν = ∞ gives simultaneousZ(m).
+ */
+export function simultaneousT(m: number, nu: number): number {
+  if (!Number.isFinite(nu) || nu > 1e6) return simultaneousZ(m);
+  const p = 0.95 ** (1 / Math.max(1, m));
+  let lo = 0, hi = 2;
+  while (studentAbsCdf(hi, nu) < p && hi < 1e12) hi *= 2;
+  for (let it = 0; it < 100; it++) { const mid = 0.5 * (lo + hi); if (studentAbsCdf(mid, nu) < p) lo = mid; else hi = mid; }
+  return 0.5 * (lo + hi);
+}
+
+/**
+ * Band half-width of parameter j: t·√(sd² + se²) (random part) plus the estimated systematic
+ * errors `sens` and the bootstrap bias |θ − mean θ_r| (Efron & Tibshirani, An Introduction to the
+ * Bootstrap, 1993, §10.2). The replicate spread sd has R − 1 degrees of freedom and se has its
+ * least-squares dof; the multiplier is Student's t at the Welch–Satterthwaite effective dof of the
+ * sum (Satterthwaite, Biometrics Bull. 2, 1946), Šidák-adjusted for m simultaneous estimates.
+ */
+function halfWidth(sol: WeakSolution, j: number, sens: number, m: number): number {
+  const sd = sol.sd[j]!, se = sol.se[j]!;
+  const R = sol.replicates.length;
+  const vs = sd * sd, ve = se * se;
+  const den = (R >= 2 ? (vs * vs) / (R - 1) : 0) + (ve * ve) / sol.dof;
+  const nu = den > 0 ? (vs + ve) ** 2 / den : Number.POSITIVE_INFINITY;
+  const bias = R >= 2 && Number.isFinite(sol.mean[j]!) ? Math.abs(sol.theta[j]! - sol.mean[j]!) : 0;
+  return simultaneousT(m, nu) * Math.sqrt(vs + ve) + sens + bias;
 }
 
 /** Ratio of the smaller to the main test-bump radius, used for the resolution-bias estimate. */
@@ -302,7 +347,7 @@ function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: n
   const [wEven, wOdd] = coarseWeights1d(xOut);
   const ia0 = params.findIndex((p) => p.term === 'diffusion' && p.degree === 0);
   const ia1 = params.findIndex((p) => p.term === 'diffusion' && p.degree === 1);
-  const z = simultaneousZ(Math.round((hi - lo) / (2 * r)));
+  const mSim = Math.round((hi - lo) / (2 * r));
   const paramsQ: Param[] = [...params, { term: opts.order === 4 ? 'fourth-order' : 'diffusion', degree: 2 }];
   for (const x0 of centers) {
     const s1 = solveWeak(kernel.G, replicates, blocks1d(xOut, wOut, xIn, x0, r, params, opts.order), wIn, P);
@@ -333,7 +378,7 @@ function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: n
         + Math.sqrt((dq(q0) + dq(q1)) / 2)
         + (Number.isFinite(sm.theta[j]!) ? Math.abs(sm.theta[j]! - v) : Math.abs(v))
         + (sk && Number.isFinite(sk.theta[j]!) ? Math.abs(sk.theta[j]! - v) : 0);
-      const [blo, bhi] = band(v, halfWidth(sd, se, sens, z), s1);
+      const [blo, bhi] = band(v, halfWidth(s1, j, sens, mSim), s1);
       t.x.push(x0); t.value.push(v); t.lower.push(blo); t.upper.push(bhi);
       t.sd.push(sd); t.se.push(se); t.sensitivity.push(sens);
     }
@@ -411,7 +456,7 @@ export function localCoefficients(kernel: Kernel, ctx: Pick<Context, 'noise' | '
     const dq = (q: WeakSolution) => (Number.isFinite(q.theta[j]!) ? (q.theta[j]! - v) ** 2 : v * v);
     // constant-coefficient model: the change with bump size is a sensitivity, not an r² bias
     const sens = (Number.isFinite(s2.theta[j]!) ? Math.abs(s2.theta[j]! - v) : Math.abs(v)) + Math.sqrt((dq(q0) + dq(q1)) / 2);
-    const [lower, upper] = band(v, halfWidth(s1.sd[j]!, s1.se[j]!, sens, simultaneousZ(1)), s1);
+    const [lower, upper] = band(v, halfWidth(s1, j, sens, 1), s1);
     return { value: v, lower, upper };
   };
   const out: LocalCoefficients = {
@@ -795,7 +840,7 @@ function run2d(kernel: Kernel, ctx: Context): { finding: OperatorFinding; eviden
     : kernel.domain.kind === 'disk' ? kernel.domain.center[0] : 0;
   const terms: OperatorTerm[] = names.map((n, i) => {
     const v = solution.theta[i]!;
-    const [lo, hi] = band(v, halfWidth(solution.sd[i]!, solution.se[i]!, sensitivity[i]!, simultaneousZ(1)), solution);
+    const [lo, hi] = band(v, halfWidth(solution, i, sensitivity[i]!, 1), solution);
     const form = n === 'diffusion' ? '-∇·(a ∇u)' : n === 'reaction' ? 'c u' : n === 'advection-x' ? 'b_x ∂u/∂x' : 'b_y ∂u/∂y';
     return { name: n, form, x: [cx], value: [v], lower: [lo], upper: [hi] };
   });

@@ -164,6 +164,10 @@ export interface WeakSolution {
   replicates: Float64Array[];
   /** replicate standard deviation of each parameter (zeros without replicates) */
   sd: Float64Array;
+  /** replicate mean of each parameter (θ itself without replicates) */
+  mean: Float64Array;
+  /** degrees of freedom of the residual standard error `se` */
+  dof: number;
   /** ‖Mθ − φ‖ / ‖φ‖ in the source-weighted norm */
   residual: number;
   /** true when the errors-in-variables correction was applied */
@@ -276,7 +280,7 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
   const sol = spdSolve(Ause, scaleY(main.y), P) ?? spdSolve(As, scaleY(main.y), P);
   if (!sol) {
     const nan = new Float64Array(P).fill(Number.NaN);
-    return { theta: nan, se: nan, replicates: [], sd: nan, residual: Number.POSITIVE_INFINITY, corrected: false, unreliable: true, attenuation };
+    return { theta: nan, se: nan, replicates: [], sd: nan, mean: nan, dof: 1, residual: Number.POSITIVE_INFINITY, corrected: false, unreliable: true, attenuation };
   }
   const theta = sol.x.map((v, i) => v * sc[i]!);
   // residual: yy − 2θᵀy + θᵀAθ (unscaled, uncorrected A)
@@ -304,6 +308,7 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
     else unreliable = true;
   }
   const sd = new Float64Array(P);
+  const mean = new Float64Array(theta);
   if (reps.length >= 2) {
     for (let i = 0; i < P; i++) {
       let m = 0;
@@ -312,9 +317,10 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
       let v = 0;
       for (const r of reps) v += (r[i]! - m) ** 2;
       sd[i] = Math.sqrt(v / (reps.length - 1));
+      mean[i] = m;
     }
   }
-  return { theta, se, replicates: reps, sd, residual, corrected, unreliable, attenuation };
+  return { theta, se, replicates: reps, sd, mean, dof, residual, corrected, unreliable, attenuation };
 }
 
 function matProd(A: Float64Array, B: Float64Array, P: number): Float64Array {

@@ -7,7 +7,7 @@
 import { describe, it, expect } from 'vitest';
 import { kernel1d, laplace, helmholtz, screened, advdiff, piecewise, clampedBeam } from '../helpers/closedForms.js';
 import { fitStandIn } from './op_fitStandIn.js';
-import { coefficientProfiles, localCoefficients, operatorAnalysis, jumpDiffusion, simultaneousZ, piecewiseProfiles } from '../../src/analyses/operator.js';
+import { coefficientProfiles, localCoefficients, operatorAnalysis, jumpDiffusion, simultaneousZ, simultaneousT, studentAbsCdf, piecewiseProfiles } from '../../src/analyses/operator.js';
 import { Rng } from '../../src/linalg/rng.js';
 import type { Kernel, NoiseFloor } from '../../src/types.js';
 import { quadratureWeights } from '../../src/quadrature.js';
@@ -139,6 +139,29 @@ describe('bands, variable and piecewise coefficients', () => {
     const ref: [number, number][] = [[1, 1.959963984540054], [2, 2.2364766445577895], [4, 2.4909151310191397], [8, 2.727007896719966]];
     // the shared normal CDF is Abramowitz & Stegun 7.1.26 (|error| < 1.5e-7), hence 1e-5 in z
     for (const [m, z] of ref) expect(Math.abs(simultaneousZ(m) - z)).toBeLessThan(1e-5);
+  });
+  it('Student-t simultaneous multiplier: against scipy.stats.t.ppf(0.5 + 0.5·0.95^(1/m), ν)', () => {
+    // python3: from scipy.stats import t; t.ppf(0.5 + 0.5 * 0.95 ** (1 / m), nu)
+    const ref: [number, number, number][] = [
+      [1, 1, 12.706204736174694], [1, 4, 49.95777654111926], [2, 2, 6.164414002968955], [5, 1, 2.5705818356363146],
+      [5, 8, 4.501423521773298], [19, 1, 2.0930240544083087], [19, 2, 2.427340223528273], [19, 4, 2.7497650182882065], [29, 8, 2.9395252841531616],
+    ];
+    for (const [nu, m, t] of ref) expect(Math.abs(simultaneousT(m, nu) - t) / t).toBeLessThan(1e-9);
+    // P(|T_ν| ≤ t) in closed form (Abramowitz & Stegun 26.7.3/4) against scipy: 2·t.cdf(1.5, ν) − 1
+    expect(Math.abs(studentAbsCdf(1.5, 3) - 0.7694161347551771)).toBeLessThan(1e-12);
+    expect(Math.abs(studentAbsCdf(1.5, 4) - 0.792)).toBeLessThan(1e-12);
+    expect(simultaneousT(2, Infinity)).toBe(simultaneousZ(2));
+  });
+  it('a band includes the bootstrap bias: replicates centred on 0.9·G of −u″ are the kernel of −u″/0.9, a = 1/0.9 (Stakgold & Holst ch. 1: G scales as 1/a)', () => {
+    const k = kernel1d(laplace(1), 200);
+    const rng = new Rng(5);
+    const reps = Array.from({ length: 20 }, () => ({ ...k.G, data: k.G.data.map((v) => 0.9 * v + 1e-6 * rng.normal()) }));
+    const a = term(coefficientProfiles(k, reps, { order: 2, advection: false, radius: 0.2 }), 'diffusion');
+    a.value.forEach((v, i) => {
+      expect(Math.abs(v - 1)).toBeLessThan(0.01);
+      // the replicates' estimate 1/0.9 lies inside the band of the estimate from G
+      expect(a.lower[i]! <= 1 / 0.9 && 1 / 0.9 <= a.upper[i]!).toBe(true);
+    });
   });
   it('a(x) = 1 + x²: the profile follows a pointwise and no reaction term is claimed — G = atan(min)(π/4 − atan(max))/(π/4), the Green\'s function of −(p u′)′ with u(0) = u(1) = 0 built from the solutions atan x and π/4 − atan x (Stakgold & Holst ch. 1)', () => {
     const g = (x: number, s: number) => Math.atan(Math.min(x, s)) * (Math.PI / 4 - Math.atan(Math.max(x, s))) / (Math.PI / 4);
