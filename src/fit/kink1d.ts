@@ -155,8 +155,164 @@ export function sweepFeatures(prep: Prepared, Psi: Mat, K: number, cb: (i: numbe
   }
 }
 
+/** Whether every (component, sensor) is measured on the same experiments (then the Grams share their parts). */
+function sharedSet(sets: number[][]): number[] | null {
+  const J0 = sets[0];
+  if (!J0) return null;
+  for (const J of sets) {
+    if (J.length !== J0.length) return null;
+    for (let n = 0; n < J.length; n++) if (J[n] !== J0[n]) return null;
+  }
+  return J0;
+}
+
+/**
+ * setupKink when all sensors share one experiment set J. With the forcings centred over J, sensor i's
+ * features are X_i = [Z, Y_i], Y_i = 2L_i + E_i − Z, where Z = Σ_k a_k v_kᵀ over all input points,
+ * L_i the same sum over the points s_k < x_i and E_i over s_k = x_i (a_k: centred weighted forcing at
+ * point k over J; v_k: its basis row). Sweeping the sensors in order of x, L grows by rank-one terms,
+ * so ZᵀL and LᵀL are updated in O(|J|·Kmax) per input point instead of forming every sensor's
+ * |J| × F feature matrix and its Gram (O(|J|·F²) per sensor). Same Grams as the direct product up to
+ * rounding.
+ */
+function setupShared(prep: Prepared, basis: KinkBasis, J: number[]): KinkSetup {
+  const { nIn, nOut, cOut, cIn } = prep;
+  const { Phi, Psi } = basis;
+  const Kmax = Phi.cols, KC = Kmax * cIn, F = 2 * KC;
+  const nc = cOut * nOut, nJ = J.length, cols = nIn * cIn, colsOut = nOut * cOut;
+  const rowQ = new Float64Array(nc * F * F), rowR = new Float64Array(nc * F), rowYY = new Float64Array(nc), rowN = new Int32Array(nc);
+  const xbar = new Float64Array(nc * F), ubar = new Float64Array(nc);
+  // centred weighted forcings, one contiguous vector per input column: Ac[col·nJ + n]
+  const fbar = new Float64Array(cols), Ac = new Float64Array(cols * nJ);
+  for (let col = 0; col < cols; col++) {
+    let m = 0;
+    for (const j of J) m += prep.FW.data[j * cols + col]!;
+    m /= nJ;
+    fbar[col] = m;
+    const o = col * nJ;
+    for (let n = 0; n < nJ; n++) Ac[o + n] = prep.FW.data[J[n]! * cols + col]! - m;
+  }
+  // centred responses per (component, sensor): Uc[c·nJ + n]
+  const Uc = new Float64Array(nc * nJ);
+  for (let c = 0; c < nc; c++) {
+    let m = 0;
+    for (const j of J) m += prep.U.data[j * colsOut + c]!;
+    m /= nJ;
+    ubar[c] = m;
+    let yy = 0;
+    for (let n = 0; n < nJ; n++) { const u = prep.U.data[J[n]! * colsOut + c]! - m; Uc[c * nJ + n] = u; yy += u * u; }
+    rowYY[c] = yy;
+    rowN[c] = nJ;
+  }
+  // Z (nJ × KC, column-major: Zt[m·nJ + n]) and its mean-forcing counterpart zbar
+  const Zt = new Float64Array(KC * nJ), zbar = new Float64Array(KC);
+  for (let q = 0; q < cIn; q++) for (let k = 0; k < nIn; k++) {
+    const col = q * nIn + k, ao = col * nJ, po = k * Kmax;
+    for (let b = 0; b < Kmax; b++) {
+      const v = Psi.data[po + b]!;
+      if (v === 0) continue;
+      const zo = (q * Kmax + b) * nJ;
+      for (let n = 0; n < nJ; n++) Zt[zo + n] += Ac[ao + n]! * v;
+      zbar[q * Kmax + b] += fbar[col]! * v;
+    }
+  }
+  const dot = (x: Float64Array, xo: number, y: Float64Array, yo: number): number => {
+    let s = 0;
+    for (let n = 0; n < nJ; n++) s += x[xo + n]! * y[yo + n]!;
+    return s;
+  };
+  const ZZ = new Float64Array(KC * KC);
+  for (let m = 0; m < KC; m++) for (let m2 = m; m2 < KC; m2++) { const v = dot(Zt, m * nJ, Zt, m2 * nJ); ZZ[m * KC + m2] = v; ZZ[m2 * KC + m] = v; }
+  // running state over the sweep: L (column-major like Zt), A = ZᵀL, B = LᵀL, lbar (mean-forcing L)
+  const Lt = new Float64Array(KC * nJ), A = new Float64Array(KC * KC), B = new Float64Array(KC * KC), lbar = new Float64Array(KC);
+  const la = new Float64Array(KC), za = new Float64Array(KC);
+  const addPoint = (k: number) => {
+    for (let q = 0; q < cIn; q++) {
+      const col = q * nIn + k, ao = col * nJ, po = k * Kmax, qo = q * Kmax;
+      let aa = 0;
+      for (let n = 0; n < nJ; n++) aa += Ac[ao + n]! * Ac[ao + n]!;
+      for (let m = 0; m < KC; m++) { la[m] = dot(Lt, m * nJ, Ac, ao); za[m] = dot(Zt, m * nJ, Ac, ao); }
+      // B += la vᵀ + v laᵀ + aa v vᵀ;  A += za vᵀ  (v = ψ(s_k) in block q)
+      for (let b = 0; b < Kmax; b++) {
+        const vb = Psi.data[po + b]!;
+        if (vb === 0) continue;
+        const cb = qo + b;
+        for (let m = 0; m < KC; m++) { B[m * KC + cb] += la[m]! * vb; B[cb * KC + m] += la[m]! * vb; A[m * KC + cb] += za[m]! * vb; }
+        for (let b2 = 0; b2 < Kmax; b2++) B[cb * KC + qo + b2] += aa * vb * Psi.data[po + b2]!;
+        const lo = cb * nJ;
+        for (let n = 0; n < nJ; n++) Lt[lo + n] += Ac[ao + n]! * vb;
+        lbar[cb] += fbar[col]! * vb;
+      }
+    }
+  };
+  const s = prep.pointsIn.data, x = prep.pointsOut.data;
+  const order = Array.from({ length: nIn }, (_, k) => k).sort((a, b) => s[a]! - s[b]!);
+  const outOrder = Array.from({ length: nOut }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
+  // per sensor: E = Σ_e a_e v_eᵀ over the points at x_i (rank ≤ their count), and its products
+  const LE = new Float64Array(KC * KC), ZE = new Float64Array(KC * KC), EE = new Float64Array(KC * KC);
+  const Lu = new Float64Array(KC), Zu = new Float64Array(KC), Eu = new Float64Array(KC), ebar = new Float64Array(KC);
+  let ptr = 0;
+  for (const i of outOrder) {
+    const xi = x[i]!;
+    while (ptr < nIn && s[order[ptr]!]! < xi) { addPoint(order[ptr]!); ptr++; }
+    LE.fill(0); ZE.fill(0); EE.fill(0); ebar.fill(0);
+    const eCols: number[] = [];
+    for (let p2 = ptr; p2 < nIn && s[order[p2]!]! === xi; p2++) for (let q = 0; q < cIn; q++) eCols.push(q * nIn + order[p2]!);
+    // v_e: ψ(s_k) placed in block q
+    const vOf = (col: number, m: number): number => { const q = Math.floor(col / nIn), k = col - q * nIn, b = m - q * Kmax; return b >= 0 && b < Kmax ? Psi.data[k * Kmax + b]! : 0; };
+    for (const col of eCols) {
+      const ao = col * nJ, q = Math.floor(col / nIn), qo = q * Kmax;
+      for (let m = 0; m < KC; m++) { la[m] = dot(Lt, m * nJ, Ac, ao); za[m] = dot(Zt, m * nJ, Ac, ao); }
+      for (let b = qo; b < qo + Kmax; b++) {
+        const vb = vOf(col, b);
+        if (vb === 0) continue;
+        ebar[b] += fbar[col]! * vb;
+        for (let m = 0; m < KC; m++) { LE[m * KC + b] += la[m]! * vb; ZE[m * KC + b] += za[m]! * vb; }
+      }
+      for (const col2 of eCols) {
+        const g = dot(Ac, ao, Ac, col2 * nJ), q2 = Math.floor(col2 / nIn) * Kmax;
+        for (let b = qo; b < qo + Kmax; b++) { const vb = vOf(col, b); if (vb === 0) continue; for (let b2 = q2; b2 < q2 + Kmax; b2++) EE[b * KC + b2] += g * vb * vOf(col2, b2); }
+      }
+    }
+    const hasE = eCols.length > 0;
+    for (let p = 0; p < cOut; p++) {
+      const c = p * nOut + i, uo = c * nJ;
+      for (let m = 0; m < KC; m++) {
+        Lu[m] = dot(Lt, m * nJ, Uc, uo); Zu[m] = dot(Zt, m * nJ, Uc, uo); Eu[m] = 0;
+      }
+      if (hasE) for (const col of eCols) { const g = dot(Ac, col * nJ, Uc, uo); const qo = Math.floor(col / nIn) * Kmax; for (let b = qo; b < qo + Kmax; b++) Eu[b] += g * vOf(col, b); }
+      const Q = rowQ.subarray(c * F * F, (c + 1) * F * F), r = rowR.subarray(c * F, (c + 1) * F), xb = xbar.subarray(c * F, (c + 1) * F);
+      const fz = (m: number) => Math.floor(m / Kmax) * 2 * Kmax + (m % Kmax);
+      for (let m = 0; m < KC; m++) {
+        const f0 = fz(m), f1 = f0 + Kmax;
+        r[f0] = Zu[m]!; r[f1] = 2 * Lu[m]! + Eu[m]! - Zu[m]!;
+        xb[f0] = zbar[m]!; xb[f1] = 2 * lbar[m]! + ebar[m]! - zbar[m]!;
+        for (let m2 = 0; m2 < KC; m2++) {
+          const g0 = fz(m2), g1 = g0 + Kmax;
+          const mm = m * KC + m2, tt = m2 * KC + m;
+          // Y = 2L + E − Z:  ZᵀY = 2A + ZE − ZZ;  YᵀY = 4B + 2(LE + LEᵀ) + EE − 2(A + Aᵀ) − (ZE + ZEᵀ) + ZZ
+          const zy = 2 * A[mm]! + ZE[mm]! - ZZ[mm]!;
+          const yy = 4 * B[mm]! + 2 * (LE[mm]! + LE[tt]!) + EE[mm]! - 2 * (A[mm]! + A[tt]!) - (ZE[mm]! + ZE[tt]!) + ZZ[mm]!;
+          Q[f0 * F + g0] = ZZ[mm]!;
+          Q[f0 * F + g1] = zy;
+          Q[g1 * F + f0] = zy;
+          Q[f1 * F + g1] = yy;
+        }
+      }
+    }
+  }
+  return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar, degree: basis.degree, omega: basis.omega };
+}
+
 /** Centre each sensor's data over its measured experiments and store the per-sensor Gram matrices at Kmax. */
 export function setupKink(prep: Prepared, basis: KinkBasis, measuredSets: number[][]): KinkSetup {
+  const shared = sharedSet(measuredSets);
+  if (shared && shared.length >= 2) return setupShared(prep, basis, shared);
+  return setupDirect(prep, basis, measuredSets);
+}
+
+/** setupKink for sensors measured on different experiments: each sensor's centred feature matrix and its Gram. */
+export function setupDirect(prep: Prepared, basis: KinkBasis, measuredSets: number[][]): KinkSetup {
   const { nOut, cOut, cIn } = prep;
   const { Phi, Psi } = basis;
   const Kmax = Phi.cols;
@@ -358,17 +514,38 @@ export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constra
   return chooseJump(sys, Kmax, cIn, constraint, best!, degree, jumps);
 }
 
-/** The relative prior size of the jump part, at the chosen size: factors 1/10, 1, 10 by GCV. */
+/** Largest basis size at which the jump factors are scanned (the chosen size when it is not larger). */
+export const JUMP_SCAN_SIZE = 10;
+
+/**
+ * The relative prior size of the jump part: factors 1/10, 1, 10 by GCV. The factors are compared at the
+ * chosen size or, when that is larger than JUMP_SCAN_SIZE, at the largest size tried not above it (the
+ * prior scale of the jump part against the smooth part is a property of the kernel, not of the basis
+ * size, and the spectra of the largest systems dominate the cost); a factor other than 1 found there is
+ * then applied at the chosen size only if it lowers GCV there too.
+ */
 export function chooseJump(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, b0: KinkChoice, degree?: Float64Array, jumps = [0.1, 10]): KinkChoice {
-  let best = b0;
-  const map = constraint === 'symmetric' ? symmetricMap(Kmax, b0.K) : unconstrainedMap(Kmax, cIn, b0.K);
-  for (const jump of jumps) {
+  const gcvOf = (K: number, jump: number): GcvPoint => {
+    const map = constraint === 'symmetric' ? symmetricMap(Kmax, K) : unconstrainedMap(Kmax, cIn, K);
     const red = reduceSystem(sys, penaltyWeights(Kmax, cIn, b0.order, jump, degree), map);
-    const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
-    b0.tried.push({ K: b0.K, order: b0.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof, jump });
-    if (g.gcv < best.gcv.gcv) best = { K: b0.K, order: b0.order, jump, gcv: g, tried: b0.tried };
+    return gcvMinimise(ridgeSpectrum(red.sys, red.P));
+  };
+  const at = b0.K <= JUMP_SCAN_SIZE ? undefined
+    : b0.tried.filter((t) => t.K <= JUMP_SCAN_SIZE && t.order === b0.order && t.jump === undefined).sort((a, b) => b.K - a.K)[0];
+  const Ks = at ? at.K : b0.K;
+  let refGcv = at ? at.gcv : b0.gcv.gcv, bestJump = 1, bestPoint = b0.gcv;
+  for (const jump of jumps) {
+    const g = gcvOf(Ks, jump);
+    b0.tried.push({ K: Ks, order: b0.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof, jump });
+    if (g.gcv < refGcv) { refGcv = g.gcv; bestJump = jump; bestPoint = g; }
   }
-  return best;
+  if (bestJump === 1) return b0;
+  if (Ks !== b0.K) {
+    bestPoint = gcvOf(b0.K, bestJump);
+    b0.tried.push({ K: b0.K, order: b0.order, gcv: bestPoint.gcv, lambda: bestPoint.lambda, dof: bestPoint.dof, jump: bestJump });
+    if (!(bestPoint.gcv < b0.gcv.gcv)) return b0;
+  }
+  return { K: b0.K, order: b0.order, jump: bestJump, gcv: bestPoint, tried: b0.tried };
 }
 
 export interface KinkFit {

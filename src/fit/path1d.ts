@@ -128,6 +128,44 @@ function oscillatoryScore(prep: Prepared, sets: number[][], constraint: Constrai
   return total;
 }
 
+/**
+ * A factor of a symmetric positive semi-definite A (row-major, n × n): A ≈ (ΠL)(ΠL)ᵀ with L lower triangular
+ * (n × rank, stored n × n) and Π the permutation `perm` (row i of L belongs to row perm[i] of A). Cholesky with
+ * diagonal pivoting, stopped when the largest remaining pivot is below n·ε·max diag(A) (semidefinite
+ * Cholesky: Higham, Accuracy and Stability of Numerical Algorithms, 2002, §10.3).
+ */
+export function semidefiniteCholesky(A: Mat): { L: Float64Array; perm: Int32Array; rank: number } {
+  const n = A.rows, W = new Float64Array(A.data), perm = Int32Array.from({ length: n }, (_, i) => i);
+  let top = 0;
+  for (let i = 0; i < n; i++) top = Math.max(top, W[i * n + i]!);
+  const tol = n * 2.2e-16 * top;
+  let rank = 0;
+  for (let j = 0; j < n; j++) {
+    let q = j;
+    for (let i = j + 1; i < n; i++) if (W[i * n + i]! > W[q * n + q]!) q = i;
+    if (!(W[q * n + q]! > tol)) break;
+    if (q !== j) {
+      // symmetric swap of rows and columns j and q
+      for (let k = 0; k < n; k++) { const t = W[j * n + k]!; W[j * n + k] = W[q * n + k]!; W[q * n + k] = t; }
+      for (let k = 0; k < n; k++) { const t = W[k * n + j]!; W[k * n + j] = W[k * n + q]!; W[k * n + q] = t; }
+      const t = perm[j]!; perm[j] = perm[q]!; perm[q] = t;
+    }
+    const d = Math.sqrt(W[j * n + j]!);
+    W[j * n + j] = d;
+    for (let i = j + 1; i < n; i++) { W[i * n + j] /= d; W[j * n + i] = W[i * n + j]!; }
+    // the trailing Schur complement, both triangles (the pivoting swaps rows and columns)
+    for (let i = j + 1; i < n; i++) {
+      const lij = W[i * n + j]!, io = i * n, jo = j * n;
+      if (lij === 0) continue;
+      for (let k = j + 1; k < n; k++) W[io + k] -= lij * W[jo + k]!;
+    }
+    rank = j + 1;
+  }
+  const L = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) for (let v = 0; v <= Math.min(i, rank - 1); v++) L[i * n + v] = W[i * n + v]!;
+  return { L, perm, rank };
+}
+
 /** Highest ωL considered: 48 ≈ 7.6 periods over the interval. */
 const SCAN_TOP_OMEGA_L = 48;
 
@@ -201,53 +239,36 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const sigma2 = fits.map((f, p) => f.gcv.rss / Math.max(1, systems[p]!.nObs - f.gcv.dof));
   const sigmaRep = sigma2.map((s2) => o.sigmaKnown ?? Math.sqrt(s2));
 
-  // ---- parametric bootstrap: noise draws, right-hand sides in one sweep
+  // ---- parametric bootstrap. A replicate's data differ from the fit's by fresh noise ε on the measured
+  // entries; the refit needs only the reduced right-hand side Tᵀ Σ_i φ_i ⊗ X̃_iᵀ ε_i (X̃_i: sensor i's centred
+  // features), which is Gaussian with covariance σ² M (M: the reduced normal matrix, since the sensors' noise is
+  // independent), and each sensor's mean noise, N(0, σ²/n_i) and independent of it (centred features are
+  // orthogonal to constants). Both are drawn directly: z = σ L ξ with M = L Lᵀ (same distribution as forming
+  // Xᵀε, without a pass over the data per replicate).
   const R = o.replicates;
   o.progress(`parametric bootstrap: ${R} replicates with fixed hyper-parameters`);
   const colsOut = prep.nOut * prep.cOut;
   const P0 = Kf * setup.F;
-  const rhs = Array.from({ length: R }, () => Array.from({ length: prep.cOut }, () => new Float64Array(P0)));
+  const factors = fits.map((f) => semidefiniteCholesky(f.solver.sys.M));
+  const rhsRed = Array.from({ length: R }, () => fits.map((f, p) => {
+    const n = f.map.size, { L, perm, rank } = factors[p]!, xi = new Float64Array(rank), z = new Float64Array(n);
+    for (let v = 0; v < rank; v++) xi[v] = o.rng.normal();
+    const sg = sigmaRep[p]!;
+    for (let u = 0; u < n; u++) { let acc = 0; const lo = u * n, top = Math.min(u, rank - 1); for (let v = 0; v <= top; v++) acc += L[lo + v]! * xi[v]!; z[perm[u]!] = sg * acc; }
+    return z;
+  }));
+  const meanEps = Array.from({ length: R }, () => {
+    const m = new Float64Array(colsOut);
+    for (let c = 0; c < colsOut; c++) { const nJ = sets[c]!.length; m[c] = nJ > 0 ? (sigmaRep[Math.floor(c / prep.nOut)]! / Math.sqrt(nJ)) * o.rng.normal() : 0; }
+    return m;
+  });
   // per-experiment residual and predicted-response energy of the fit (for the scaling test)
   const resE = new Float64Array(prep.N), resN = new Float64Array(prep.N), predE = new Float64Array(prep.N);
   const thRow = new Float64Array(setup.F);
-  const meanEps = Array.from({ length: R }, () => new Float64Array(colsOut));
-  const eps = Array.from({ length: R }, () => {
-    const e = new Float64Array(prep.N * colsOut);
-    for (let c = 0; c < colsOut; c++) {
-      const s = sigmaRep[Math.floor(c / prep.nOut)]!;
-      for (const j of sets[c]!) e[j * colsOut + c] = s * o.rng.normal();
-    }
-    return e;
-  });
   const F = setup.F;
-  const g = new Float64Array(F);
-  const active = fits.map((f) => {
-    const a: number[] = [];
-    for (let q = 0; q < prep.cIn; q++) for (let part = 0; part < 2; part++) for (let b = 0; b < f.K; b++) a.push(q * 2 * Kf + part * Kf + b);
-    return Int32Array.from(a);
-  });
   sweepFeatures(prep, setup.Psi, Kf, (i, X) => {
     for (let p = 0; p < prep.cOut; p++) {
       const c = p * prep.nOut + i;
-      const phi = setup.Phi.data.subarray(i * Kf, (i + 1) * Kf);
-      // only the coefficients of the chosen size enter the refit (θ entries beyond it are zero)
-      const act = active[p]!, Kp = fits[p]!.K, nA = act.length;
-      const accumulate = (J: number[], e: Float64Array, target: Float64Array): number => {
-        let m = 0;
-        for (const j of J) m += e[j * colsOut + c]!;
-        m /= J.length;
-        g.fill(0);
-        for (const j of J) {
-          const v = e[j * colsOut + c]! - m;
-          const xo = j * F;
-          for (let u = 0; u < nA; u++) { const f = act[u]!; g[f] += X[xo + f]! * v; }
-        }
-        for (let a = 0; a < Kp; a++) { const pa = phi[a]!; for (let u = 0; u < nA; u++) { const f = act[u]!; target[a * F + f] += pa * g[f]!; } }
-        return m;
-      };
-      for (let r = 0; r < R; r++) {
-        meanEps[r]![c] = accumulate(sets[c]!, eps[r]!, rhs[r]![p]!);
-      }
       const xb = setup.xbar.subarray(c * F, (c + 1) * F);
       rowCoefficients(setup, thetas[p]!, i, thRow);
       for (const j of sets[c]!) {
@@ -296,7 +317,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   });
   for (let r = 0; r < R; r++) {
     const tr = fits.map((f, p) => {
-      const e = f.solver.solveVec(reduceVec(f.map, rhs[r]![p]!));
+      const e = f.solver.solveVec(rhsRed[r]![p]!);
       for (let u = 0; u < e.length; u++) e[u] += shrunk[p]![u]!;
       return expand(f.map, e, P0);
     });
