@@ -97,4 +97,10 @@ export interface CoreFit {
   truncationInReplicates?: number;
   /** input-side degrees of freedom of the model (the data must excite at least this many directions) */
   inputDof: number;
+  /**
+   * expected squared (Frobenius) kernel error under the fit's own GP prior, when the path has one (span
+   * model): `total` at the fitted noise level, `unidentified` in the noise-free limit (the part no data
+   * along these forcings determine)
+   */
+  posteriorError2?: { total: number; unidentified: number };
 }

@@ -62,7 +62,17 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
   const normG = frobenius(core.G);
   let spread = 0;
   for (const Gr of core.replicates) { const d = relativeError(Gr, core.G); spread += d * d; }
-  const predG = core.replicates.length ? Math.sqrt(spread / core.replicates.length) : NaN;
+  const predBoot = core.replicates.length ? Math.sqrt(spread / core.replicates.length) : NaN;
+  // a path with a prior (span model) also predicts the error from the posterior: the in-span part is the
+  // larger of the bootstrap and posterior estimates, the unidentified part (noise-free posterior) adds to it
+  let predG = predBoot, predIdentified = predBoot, predUnidentified: number | null = null;
+  if (core.posteriorError2 && normG > 0) {
+    const un2 = core.posteriorError2.unidentified / (normG * normG);
+    const id2 = Math.max(0, core.posteriorError2.total - core.posteriorError2.unidentified) / (normG * normG);
+    predIdentified = Math.sqrt(Math.max(Number.isFinite(predBoot) ? predBoot * predBoot : 0, id2));
+    predUnidentified = Math.sqrt(un2);
+    predG = Math.sqrt(predIdentified * predIdentified + un2);
+  }
   let normUh = 0;
   for (const v of core.uh) normUh += v * v;
   normUh = Math.sqrt(normUh);
@@ -113,7 +123,8 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
     uncertainty: {
       relative_kernel_error: predG,
       relative_homogeneous_error: predUh,
-      method: `parametric bootstrap: ${core.replicates.length} refits with fixed hyper-parameters to Ĝ W f + û_h + N(0, σ²) noise; spread about the fit (variance and shrinkage bias; in 1-D each replicate also carries a random multiple of the basis-size truncation error, extrapolated from the fits at the two next smaller sizes)`,
+      method: `parametric bootstrap: ${core.replicates.length} refits with fixed hyper-parameters to Ĝ W f + û_h + N(0, σ²) noise; spread about the fit (variance and shrinkage bias; in 1-D each replicate also carries a random multiple of the basis-size truncation error, extrapolated from the fits at the two next smaller sizes)` +
+        (predUnidentified !== null ? `; span model: the identified part is the larger of that spread and the GP posterior's in-span error, and the posterior spread in the noise-free limit (what the forcings do not determine) is added to it` : ''),
       replicates: core.replicates.length,
     },
     coverage: {
@@ -132,6 +143,12 @@ function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0:
   extra.coverage_detail = { excited_directions: cov.excited_directions, input_dimension: cov.input_dimension, unexcited_inputs: cov.unexcited_inputs };
   extra.notes = [...prep.notes, ...core.notes];
   extra.kernel_norm = normG;
+  if (predUnidentified !== null) {
+    const u = report.uncertainty as FitReport['uncertainty'] & Record<string, unknown>;
+    u.relative_kernel_error_identified = predIdentified;
+    u.relative_kernel_error_unidentified = predUnidentified;
+    u.relative_kernel_error_bootstrap = predBoot;
+  }
   const noise: NoiseFloor = {
     replicates: core.replicates,
     homogeneousReplicates: core.homogeneousReplicates,

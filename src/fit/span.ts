@@ -59,8 +59,6 @@ export function centred(prep: Prepared, J: number[]): Mat {
 }
 
 interface SpanSolve {
-  /** T = K W F̃ᵀ V (D + λ)⁻¹ Vᵀ (nIn·cIn × N): g_i = T ũ_i */
-  T: Mat;
   /** eigenvectors V and eigenvalues d of A = F̃ W K W F̃ᵀ */
   V: Mat;
   d: Float64Array;
@@ -71,9 +69,9 @@ interface SpanSolve {
 }
 
 /** GCV over λ for complete rows Ũ (rows × N) given A = F̃ W K W F̃ᵀ. */
-export function gcvRows(A: Mat, KWF: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0): SpanSolve {
+export function gcvRows(A: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0, eig?: { vectors: Mat; values: Float64Array }): SpanSolve {
   const N = A.rows, rows = Uc.rows;
-  const e = eigSym(A);
+  const e = eig ?? eigSym(A);
   const d = Float64Array.from(e.values, (v) => Math.max(v, 0));
   const C = matmul(Uc, e.vectors); // rows × N: c_im
   const c2 = new Float64Array(N);
@@ -100,12 +98,15 @@ export function gcvRows(A: Mat, KWF: Mat, Uc: Mat, nObs: number, fixedLambda?: n
       if (g < best) { best = g; lambda = lam; }
     }
   }
-  const g = evalAt(lambda);
-  // T = KWF V diag(1/(d+λ)) Vᵀ
+  return { V: e.vectors, d, lambda, ...evalAt(lambda) };
+}
+
+/** T = K W F̃ᵀ V diag(1/(d+λ)) Vᵀ (nIn·cIn × N), the row map g_i = T ũ_i of a solve. */
+function rowMap(sol: SpanSolve, KWF: Mat): Mat {
+  const N = sol.V.rows;
   const Vs = zeros(N, N);
-  for (let a = 0; a < N; a++) for (let m = 0; m < N; m++) Vs.data[a * N + m] = e.vectors.data[a * N + m]! / (d[m]! + lambda);
-  const T = matmulNT(matmul(KWF, Vs), e.vectors);
-  return { T, V: e.vectors, d, lambda, ...g };
+  for (let a = 0; a < N; a++) for (let m = 0; m < N; m++) Vs.data[a * N + m] = sol.V.data[a * N + m]! / (sol.d[m]! + sol.lambda);
+  return matmulNT(matmul(KWF, Vs), sol.V);
 }
 
 export function fitPathSpan(prep: Prepared, sets: number[][], o: {
@@ -138,23 +139,24 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   o.progress(`span model: choosing the prior among ${priors.length} and λ by GCV`);
   // singular part of the kernel (spanSingular.ts): scalar 2-D studies with every response measured; the
   // form (none, logarithmic, r² ln r) and the prior of the remainder are chosen together by GCV
-  const singularForms: SingularForm[] = prep.dimension === 2 && cIn === 1 && cOut === 1 && complete.length === colsOut ? ['log', 'r2log'] : [];
+  const singularForms: SingularForm[] = prep.dimension === 2 && cIn === 1 && cOut === 1 && complete.length === colsOut ? ['log', 'log-dirichlet', 'log-neumann', 'r2log'] : [];
   const forms = singularForms.map((form) => {
-    const Phi = singularKernel(form, prep.pointsOut, prep.pointsIn, prep.weights);
+    const Phi = singularKernel(form, prep.pointsOut, prep.pointsIn, prep.weights, prep.box);
     return { form, Phi, Z: singularResponses(Phi, complete, FWc) };
   });
-  if (forms.length) o.progress('span model: testing a singular part on the diagonal (logarithmic, r² ln r) jointly with the prior');
+  if (forms.length) o.progress('span model: testing a singular part on the diagonal (logarithmic, with images, r² ln r) jointly with the prior');
   let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null } | null = null;
   const tried: string[] = [];
   for (const prior of priors) {
     const KWF = priorTimes(prep, prior, FWc, Kcache);
     const A = matmul(FWc, KWF);
-    const sol = gcvRows(A, KWF, Uc, nObsChoice);
+    const eig = eigSym(A);
+    const sol = gcvRows(A, Uc, nObsChoice, undefined, 0, eig);
     tried.push(`${prior.name}=${sol.gcv.toPrecision(4)}`);
     if (!best || sol.gcv < best.sol.gcv) best = { prior, sol, KWF, A, form: null, c: null };
     for (const f of forms) {
       const c = singularCoefficients(sol.V, sol.d, sol.lambda, f.Z, Uc);
-      const solS = gcvRows(A, KWF, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length);
+      const solS = gcvRows(A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length, eig);
       tried.push(`${prior.name}+${f.form}=${solS.gcv.toPrecision(4)}`);
       if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c };
     }
@@ -165,9 +167,11 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   if (singular) {
     const sorted = Array.from(singular.c).sort((x, y) => x - y);
     singularNotes.singular_coefficient_median = sorted[sorted.length >> 1]!;
-    notes.push(`a ${singular.form === 'log' ? 'logarithmic (second-order)' : 'r² ln r (fourth-order)'} singularity on the diagonal, its coefficient fitted per sensor, lowered the GCV score; the kernel holds it in full, also where the forcings do not reach (median coefficient ${singularNotes.singular_coefficient_median.toPrecision(3)}${singular.form === 'log' ? ', i.e. 1/a for −∇·(a∇u)' : ''})`);
+    const formName = { log: 'logarithmic (second-order)', 'log-dirichlet': 'logarithmic (second-order, with Dirichlet images across the box sides)', 'log-neumann': 'logarithmic (second-order, with Neumann images across the box sides)', r2log: 'r² ln r (fourth-order)' }[singular.form];
+    notes.push(`a ${formName} singularity on the diagonal, its coefficient fitted per sensor, lowered the GCV score; the kernel holds it in full, also where the forcings do not reach (median coefficient ${singularNotes.singular_coefficient_median.toPrecision(3)}${singular.form.startsWith('log') ? ', i.e. 1/a for −∇·(a∇u)' : ''})`);
   }
   const { prior, sol } = best!;
+  const post = posteriorSpread(sol, best!.KWF, priorTrace(prep, prior, Kcache), singular ? subtractSingular(Uc, singular.Z, singular.c) : Uc);
   const hyperX: Record<string, number | string> = {};
   let gcvX = sol.gcv, rssX = sol.rss, dofX = sol.dof;
   // kernel rows
@@ -193,7 +197,8 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
       for (let j = 0; j < N; j++) Ucomp.data[r * N + j] = u[j]! - m;
     });
     // optional smoothness prior across sensors (tensor-grid sensors, all rows complete): G ~ MN(0, K_x, K_s)
-    let baseMap = (U: Mat): Mat => matmulNT(U, sol.T);
+    const T = rowMap(sol, best!.KWF);
+    let baseMap = (U: Mat): Mat => matmulNT(U, T);
     const sing = singular;
     // with a singular part: c_i by GLS from the rows' data, the span model on the remainder, plus c_i Φ(x_i, ·)
     const mapRows = !sing ? (U: Mat): Mat => baseMap(U) : (U: Mat): Mat => {
@@ -306,7 +311,42 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     G, uh, rss: rssX, dof: dofX, nObs: nObsChoice, yy: frob2(Uc), gcvMse: gcvX,
     sigma: Math.sqrt(sigma2), replicates: repG, homogeneousReplicates: repUh, scaling, notes,
     constraint: 'none', complete: false, inputDof: nI,
+    posteriorError2: { total: post.total, unidentified: post.unidentified },
   };
+}
+
+/** tr K of the prior (unweighted): Σ 1/w for the white prior K = W⁻¹, else the diagonal of the covariance. */
+function priorTrace(prep: Prepared, prior: Prior, Kcache: Map<string, Mat>): number {
+  let t = 0;
+  if (prior.kind === 'white') { for (const w of prep.weights) if (w > 0) t += 1 / w; return t * prep.cIn; }
+  const K = Kcache.get(`${prior.kind}:${prior.lengthScale}`)!;
+  for (let k = 0; k < K.rows; k++) t += K.data[k * K.cols + k]!;
+  return t * prep.cIn;
+}
+
+/**
+ * Posterior spread of the rows under the row-wise GP prior g_i ~ GP(0, τ² K) (GPML §2.2, eq. 2.24):
+ * E‖g_i − ĝ_i‖² = τ² [tr K − Σ_m ‖K W F̃ᵀ v_m‖² / (d_m + λ)], with τ² by maximum likelihood at the
+ * chosen ratio λ = σ²/τ² (ũ_i ~ N(0, τ²(A + λI)): τ̂² = Σ_i ũ_iᵀ(A + λI)⁻¹ũ_i / (rows·N)). Returned as the
+ * total over rows at the fitted λ and in the noise-free limit (λ → 0: what no amount of data along these
+ * forcings determines).
+ */
+function posteriorSpread(sol: SpanSolve, KWF: Mat, trK: number, U: Mat): { tau2: number; total: number; unidentified: number } {
+  const N = sol.V.rows, rows = U.rows;
+  const B = matmul(KWF, sol.V);
+  const b = new Float64Array(N);
+  for (let k = 0; k < B.rows; k++) for (let m = 0; m < N; m++) b[m] += B.data[k * N + m]! ** 2;
+  const C = matmul(U, sol.V);
+  let q = 0;
+  for (let i = 0; i < rows; i++) for (let m = 0; m < N; m++) q += C.data[i * N + m]! ** 2 / (sol.d[m]! + sol.lambda);
+  const tau2 = q / (rows * N);
+  const top = sol.d[0]!;
+  let red = 0, red0 = 0;
+  for (let m = 0; m < N; m++) {
+    red += b[m]! / (sol.d[m]! + sol.lambda);
+    if (sol.d[m]! > 1e-12 * top) red0 += b[m]! / sol.d[m]!;
+  }
+  return { tau2, total: rows * tau2 * Math.max(0, trK - red), unidentified: rows * tau2 * Math.max(0, trK - red0) };
 }
 
 /**

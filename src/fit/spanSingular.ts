@@ -9,13 +9,16 @@
  * with a flat prior on the coefficient c_i (explicit basis functions in a GP: Rasmussen & Williams,
  * GPML 2006, §2.7), so c_i is the generalised least-squares estimate
  *     c_i = z_iᵀ (A + λI)⁻¹ ũ_i / z_iᵀ (A + λI)⁻¹ z_i,   z_i = F̃ W Φ(x_i, ·)ᵀ,
- * and the rest r_i is the span model's fit to ũ_i − c_i z_i. Which Φ (none, logarithmic, r² ln r) is
- * chosen by GCV, counting one parameter per row for c_i. Pure numerics, no fs.
+ * and the rest r_i is the span model's fit to ũ_i − c_i z_i. Near a straight boundary the free-space
+ * singularity meets its mirror image, so for points in a box two more forms add the first images across
+ * the sides and corners (Dirichlet or Neumann signs). Which Φ (none, logarithmic, logarithmic with
+ * Dirichlet or Neumann images, r² ln r) is chosen by GCV together with the prior of the remainder,
+ * counting one parameter per row for c_i. Pure numerics, no fs.
  */
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, matmulNT } from '../linalg/dense.js';
 
-export type SingularForm = 'log' | 'r2log';
+export type SingularForm = 'log' | 'r2log' | 'log-dirichlet' | 'log-neumann';
 
 /**
  * Φ(x_i, s_k) on (output × input points). Where a sensor sits on an actuator the point value is infinite
@@ -23,7 +26,30 @@ export type SingularForm = 'log' | 'r2log';
  * quadrature does (and as the simulator's truth does): ρ = √(w_k/π), (1/2 − ln ρ)/(2π) for −ln r/(2π) and
  * ρ²(ln ρ/2 − 1/8)/(8π) for r² ln r/(8π).
  */
-export function singularKernel(form: SingularForm, pointsOut: Mat, pointsIn: Mat, weightsIn: Float64Array): Mat {
+export function singularKernel(form: SingularForm, pointsOut: Mat, pointsIn: Mat, weightsIn: Float64Array, box?: [number, number][]): Mat {
+  if (form === 'log-dirichlet' || form === 'log-neumann') {
+    if (!box) throw new Error('singularKernel: the image forms need the box');
+    // first reflections of the sensor across the four sides and the four corners, signs − and + for
+    // Dirichlet sides, all + for Neumann sides: the method of images, exact for a half-plane or a
+    // quarter-plane (Duffy 2001, ch. 5; Stakgold & Holst ch. 8 — from memory)
+    const neu = form === 'log-neumann';
+    const base = singularKernel('log', pointsOut, pointsIn, weightsIn);
+    const [[ax, bx], [ay, by]] = box;
+    const nO = pointsOut.rows, nI = pointsIn.rows, P = pointsOut.data, S = pointsIn.data;
+    for (let i = 0; i < nO; i++) {
+      const x = P[2 * i]!, y = P[2 * i + 1]!;
+      const xs = [x, 2 * ax - x, 2 * bx - x], ys = [y, 2 * ay - y, 2 * by - y];
+      for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) {
+        if (a === 0 && b === 0) continue;
+        const sign = neu || (a > 0 && b > 0) ? 1 : -1;
+        for (let k = 0; k < nI; k++) {
+          const r = Math.max(Math.hypot(xs[a]! - S[2 * k]!, ys[b]! - S[2 * k + 1]!), Math.sqrt(Math.max(weightsIn[k]!, 0) / Math.PI));
+          base.data[i * nI + k] += sign * (-Math.log(r) / (2 * Math.PI));
+        }
+      }
+    }
+    return base;
+  }
   const nO = pointsOut.rows, nI = pointsIn.rows;
   const P = pointsOut.data, S = pointsIn.data;
   const out = zeros(nO, nI);
