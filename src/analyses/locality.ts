@@ -18,9 +18,9 @@ import type { Analysis, AnalysisOutput, Context } from './analysis.js';
 import { normalCdf } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
-import { zeros } from '../linalg/dense.js';
-import { colocated, replicates, deviations, sqrtWeighted, sig, round3, domainLength, std } from './util/a_common.js';
-import { kernelSpectrum } from './order.js';
+import { zeros, matmul, transpose } from '../linalg/dense.js';
+import { colocated, replicates, sig, round3, domainLength, std } from './util/a_common.js';
+import { kernelSpectrum, projectedDeviations } from './order.js';
 
 type F = Findings['locality'];
 
@@ -28,28 +28,29 @@ function hann(K: number): Float64Array {
   return Float64Array.from({ length: K }, (_, k) => 0.5 * (1 + Math.cos(Math.PI * k / K)));
 }
 
-/** Out-of-band energy share of B = Σ_k c_k v_k u_kᵀ (U, V columns, n × K). */
+/** Out-of-band energy share of B = Σ_k c_k v_k u_kᵀ (U, V columns, n × K); with C: of B − B_c C B_c (first-order perturbation). */
 function outOfBand(U: Mat, V: Mat, c: Float64Array, far: Uint8Array, C?: Float64Array): number {
   const n = U.rows, K = c.length;
-  let tot = 0, out = 0;
-  const row = new Float64Array(K);
-  for (let i = 0; i < n; i++) {
-    // row i of B: Σ_k V_ik c_k U_jk  (+ perturbation −Σ_kl V_ik c_k C_kl c_l U_jl)
-    for (let k = 0; k < K; k++) row[k] = V.data[i * V.cols + k]! * c[k]!;
-    let rowP = row;
-    if (C) {
-      rowP = new Float64Array(K);
-      for (let l = 0; l < K; l++) { let s = 0; for (let k = 0; k < K; k++) s += row[k]! * C[k * K + l]!; rowP[l] = row[l]! - s * c[l]!; }
-    }
-    for (let j = 0; j < n; j++) {
-      let b = 0;
-      for (let k = 0; k < K; k++) b += rowP[k]! * U.data[j * U.cols + k]!;
-      const e = b * b;
-      tot += e;
-      if (far[i * n + j]) out += e;
+  // B = V M Uᵀ with M = diag(c) − diag(c) C diag(c)
+  const VM = zeros(V.rows, K);
+  for (let i = 0; i < V.rows; i++) {
+    for (let k = 0; k < K; k++) {
+      const v = V.data[i * V.cols + k]! * c[k]!;
+      if (v === 0) continue;
+      VM.data[i * K + k] += v;
+      if (C) for (let l = 0; l < K; l++) VM.data[i * K + l] -= v * C[k * K + l]! * c[l]!;
     }
   }
+  const B = matmul(VM, transpose(U.cols === K ? U : takeCols(U, K)));
+  let tot = 0, out = 0;
+  for (let q = 0; q < n * n; q++) { const e = B.data[q]! * B.data[q]!; tot += e; if (far[q]) out += e; }
   return tot > 0 ? out / tot : NaN;
+}
+
+function takeCols(M: Mat, K: number): Mat {
+  const o = zeros(M.rows, K);
+  for (let i = 0; i < M.rows; i++) for (let k = 0; k < K; k++) o.data[i * K + k] = M.data[i * M.cols + k]!;
+  return o;
 }
 
 /** Sine modes of the Dirichlet Laplacian on the points' box, √w-weighted, ordered by eigenvalue. */
@@ -111,8 +112,7 @@ export const locality: Analysis<F> = {
       wTot += ww; if (f) wFar += ww;
     }
     const h = hann(K);
-    const take = (M: Mat) => { const o = zeros(M.rows, K); for (let i = 0; i < M.rows; i++) for (let k = 0; k < K; k++) o.data[i * K + k] = M.data[i * M.cols + k]!; return o; };
-    const U = take(sp.svd.U), V = take(sp.svd.V);
+    const U = takeCols(sp.svd.U, K), V = takeCols(sp.svd.V, K);
     const c = Float64Array.from({ length: K }, (_, k) => h[k]! / sp.s[k]!);
     const share = outOfBand(U, V, c, far);
     const cRef = Float64Array.from({ length: K }, (_, k) => h[k]! * ref.lam[k]!);
@@ -120,19 +120,10 @@ export const locality: Analysis<F> = {
     const shareSpread = wFar / wTot;
     const pos = (v: number) => (v - shareLocal) / (shareSpread - shareLocal);
     const x = pos(share);
-    // floor: first-order perturbation of the filtered inverse by a few replicates' deviations
-    const devs = deviations(reps).slice(0, 8);
-    const xs: number[] = [];
-    for (const dv of devs) {
-      const E = sqrtWeighted(dv, kernel.weightsIn, kernel.weightsIn);
-      // C = Uᵀ E V  (K × K), scaled so that δB = −V c C c Uᵀ
-      const EV = zeros(n, K);
-      for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) { const e = E.data[i * n + j]!; if (e === 0) continue; for (let k = 0; k < K; k++) EV.data[i * K + k] += e * V.data[j * K + k]!; }
-      const C = new Float64Array(K * K);
-      for (let k = 0; k < K; k++) for (let l = 0; l < K; l++) { let s = 0; for (let i = 0; i < n; i++) s += U.data[i * K + k]! * EV.data[i * K + l]!; C[k * K + l] = s; }
-      // B = V diag(c) Uᵀ; δB = −B E B = −V diag(c) (Uᵀ E V) diag(c) Uᵀ, using the unfiltered 1/σ on the inner side
-      xs.push(pos(outOfBand(U, V, c, far, C)));
-    }
+    // floor: first-order perturbation of the filtered inverse by a few replicates' deviations;
+    // C = Uᵀ E V (K × K) with E the weighted deviation, so that δB = −V diag(c) C diag(c) Uᵀ
+    // (B = V diag(c) Uᵀ; the unfiltered 1/σ on the inner side)
+    const xs = projectedDeviations(sp, reps, K, 8).map((C) => pos(outOfBand(U, V, c, far, C)));
     const sd = xs.length >= 3 ? std(xs) : NaN;
     // our allowance for the spread between different local operators on the same yardstick
     const model = 0.15;

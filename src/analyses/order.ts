@@ -21,8 +21,7 @@ import { normalCdf, clamp01 } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul } from '../linalg/dense.js';
-import { replicates, deviations, weightsOut, sqrtWeighted, topSvd, analysisRng, spectralNorm, decide, sig, round3, median, std, colocated, type TopSvd } from './util/a_common.js';
-import { jointSlopeJump } from './translation.js';
+import { replicates, deviations, weightsOut, sqrtWeighted, topSvd, analysisRng, spectralNorm, decide, sig, round3, median, std, colocated, slopeJumpFunctionals, applyJumpFunctionals, type TopSvd } from './util/a_common.js';
 
 type F = Findings['order'];
 
@@ -35,13 +34,27 @@ export interface Spectrum {
   perturbed: Float64Array[];
   /** spectral norm of the weighted noise (mean over up to 5 replicates' deviations) */
   noiseNorm: number;
+  /** W_out^{1/2}U and W_in^{1/2}V: the singular vectors in point values */
+  weightedU: Mat;
+  weightedV: Mat;
+  /** per replicate deviation D (of `deviations(reps)`): D·W_in^{1/2}V, so that Uᵀ(W^{1/2}DW^{1/2})V = weightedUᵀ·devV */
+  devV: Mat[];
+  /** the replicates the spectrum was computed with */
+  reps: Mat[];
 }
 
 const spectrumCache = new WeakMap<Mat, Spectrum>();
 
+/** diag(w)^{1/2}·M. */
+function sqrtScaleRows(M: Mat, w: Float64Array): Mat {
+  const out = zeros(M.rows, M.cols);
+  for (let i = 0; i < M.rows; i++) { const si = Math.sqrt(w[i]!); for (let k = 0; k < M.cols; k++) out.data[i * M.cols + k] = si * M.data[i * M.cols + k]!; }
+  return out;
+}
+
 /**
  * Leading singular values of W^{1/2} G W^{1/2} with bootstrap errors and the trustworthy
- * count. Cached per kernel matrix (order and locality share it).
+ * count. Cached per kernel matrix (order, locality, oscillation and self_adjoint share it).
  */
 export function kernelSpectrum(kernel: Kernel, reps: Mat[], identifiedRank?: number): Spectrum {
   const hit = spectrumCache.get(kernel.G);
@@ -52,27 +65,57 @@ export function kernelSpectrum(kernel: Kernel, reps: Mat[], identifiedRank?: num
   const kmax = Math.min(A.rows, A.cols, kernel.dimension === 1 ? 64 : 96);
   const sv = topSvd(A, kmax, analysisRng(17));
   const K = sv.s.length;
-  const devs = deviations(reps).map((d) => sqrtWeighted(d, wo, wi));
+  const Uw = sqrtScaleRows(sv.U, wo), Vw = sqrtScaleRows(sv.V, wi);
+  const devs = deviations(reps);
   const perturbed: Float64Array[] = [];
+  const devV: Mat[] = [];
   const err = new Float64Array(K);
-  for (const E of devs) {
-    // δσ_k = u_kᵀ E v_k
-    const EV = matmul(E, sv.V);
+  for (const D of devs) {
+    // δσ_k = u_kᵀ (W^{1/2} D W^{1/2}) v_k = (W^{1/2}u_k)ᵀ D (W^{1/2}v_k)
+    const DV = matmul(D, Vw);
+    devV.push(DV);
     const p = new Float64Array(K);
-    for (let k = 0; k < K; k++) { let t = 0; for (let i = 0; i < E.rows; i++) t += sv.U.data[i * K + k]! * EV.data[i * K + k]!; p[k] = sv.s[k]! + t; err[k] += t * t; }
+    for (let k = 0; k < K; k++) { let t = 0; for (let i = 0; i < D.rows; i++) t += Uw.data[i * K + k]! * DV.data[i * K + k]!; p[k] = sv.s[k]! + t; err[k] += t * t; }
     perturbed.push(p);
   }
   for (let k = 0; k < K; k++) err[k] = devs.length ? Math.sqrt(err[k]! / devs.length) : 0;
   // noise-dominated below the spectral norm of the noise itself (mean over a few replicates)
   const rngN = analysisRng(19);
-  const enorm = devs.length ? devs.slice(0, 5).reduce((acc, E) => acc + spectralNorm(E, rngN), 0) / Math.min(5, devs.length) : 0;
+  const sr = Float64Array.from(wo, Math.sqrt), sc = Float64Array.from(wi, Math.sqrt);
+  const enorm = devs.length ? devs.slice(0, 5).reduce((acc, D) => acc + spectralNorm(D, rngN, 30, sr, sc), 0) / Math.min(5, devs.length) : 0;
   let trusted = 0;
   const cap = identifiedRank && identifiedRank > 0 ? identifiedRank : K;
   const tiny = 1e-12 * (sv.s[0] ?? 0);
   while (trusted < Math.min(K, cap) && sv.s[trusted]! > 3 * err[trusted]! && sv.s[trusted]! > 2 * enorm && sv.s[trusted]! > tiny) trusted++;
   if (!devs.length) trusted = 0; // no floor: nothing can be called trustworthy
-  const out = { s: sv.s, err, trusted, svd: sv, perturbed, noiseNorm: enorm };
+  const out = { s: sv.s, err, trusted, svd: sv, perturbed, noiseNorm: enorm, weightedU: Uw, weightedV: Vw, devV, reps: reps.slice() };
   spectrumCache.set(kernel.G, out);
+  return out;
+}
+
+/**
+ * Uᵀ(W^{1/2} D W^{1/2})V — or Vᵀ(…)V with `left = 'V'` — restricted to the leading K singular
+ * vectors, for the first `max` deviations D of `reps` (K × K, row-major). Reuses the spectrum's
+ * products D·W^{1/2}V when it was computed from the same replicates.
+ */
+export function projectedDeviations(sp: Spectrum, reps: Mat[], K: number, max: number, left: 'U' | 'V' = 'U'): Float64Array[] {
+  const same = sp.reps.length === reps.length && sp.reps.every((r, i) => r === reps[i]);
+  const L = left === 'U' ? sp.weightedU : sp.weightedV, Kall = sp.weightedV.cols;
+  const devs = same ? [] : deviations(reps);
+  const count = Math.min(max, same ? sp.devV.length : devs.length);
+  const Vk = same ? null : zeros(sp.weightedV.rows, K);
+  if (Vk) for (let i = 0; i < Vk.rows; i++) for (let k = 0; k < K; k++) Vk.data[i * K + k] = sp.weightedV.data[i * Kall + k]!;
+  const out: Float64Array[] = [];
+  for (let r = 0; r < count; r++) {
+    const DV = same ? sp.devV[r]! : matmul(devs[r]!, Vk!);
+    const dc = DV.cols;
+    const C = new Float64Array(K * K);
+    for (let i = 0; i < DV.rows; i++) {
+      const lo = i * L.cols, dvo = i * dc;
+      for (let k = 0; k < K; k++) { const u = L.data[lo + k]!; if (u === 0) continue; const ck = k * K; for (let l = 0; l < K; l++) C[ck + l] += u * DV.data[dvo + l]!; }
+    }
+    out.push(C);
+  }
   return out;
 }
 
@@ -105,21 +148,24 @@ export function decayFit(s: ArrayLike<number>, lo: number, hi: number): DecayFit
 
 /** Normalised slope jump |mean [∂xG]| / median max|∂xG| over interior columns (1-D, co-located; joint |t|-kink fit per column). */
 export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[]): { value: number; scale: number[] } {
-  const n = x.length;
-  const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
-  const xs = Float64Array.from(ord, (i) => x[i]!);
-  const P = zeros(n, n);
-  for (let a = 0; a < n; a++) for (let b = 0; b < n; b++) P.data[a * n + b] = G.data[ord[a]! * G.cols + ord[b]!]!;
-  const jp = jointSlopeJump(P, xs);
-  const sc = scale ?? jp.idx.map((j) => {
-    let m = 0;
-    for (let i = 1; i < n; i++) m = Math.max(m, Math.abs(P.data[i * n + j]! - P.data[(i - 1) * n + j]!) / (xs[i]! - xs[i - 1]!));
-    return m || 1;
-  });
+  const fn = slopeJumpFunctionals(x);
+  const jump = applyJumpFunctionals(G, fn);
+  let sc = scale;
+  if (!sc) {
+    const n = x.length;
+    const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
+    sc = fn.idx.map((j) => {
+      let m = 0;
+      for (let i = 1; i < n; i++) m = Math.max(m, Math.abs(G.data[ord[i]! * G.cols + j]! - G.data[ord[i - 1]! * G.cols + j]!) / (x[ord[i]!]! - x[ord[i - 1]!]!));
+      return m || 1;
+    });
+  }
   // pooled over columns: the jump has one sign along the whole diagonal (−1/a(s) < 0), so its mean
   // keeps the signal while the noise of many columns averages out
   const ms = median(sc);
-  return { value: Math.abs(jp.jump.reduce((t, v) => t + v, 0) / Math.max(1, jp.jump.length)) / ms, scale: sc };
+  let sum = 0;
+  for (let q = 0; q < jump.length; q++) sum += jump[q]!;
+  return { value: Math.abs(sum / Math.max(1, jump.length)) / ms, scale: sc };
 }
 
 /** Combine two independent probabilities for the same hypothesis (equal priors). */

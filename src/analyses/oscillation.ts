@@ -72,29 +72,107 @@ function segments(kernel: Kernel, a: number, b: number, gap: number, maxCols = 1
   return out;
 }
 
-/** Residual energy of the best fit of all segments for given (p, θ), and the total energy. */
-function objective(G: Mat, x: Float64Array, segs: Segment[], p: number, theta: number): number {
+/** One matrix's segment data, gathered once for the many objective evaluations of a fit. */
+interface Prep {
+  /** per segment: the values y and the offsets t = x − xc, and Σy² */
+  y: Float64Array[];
+  t: Float64Array[];
+  yy: Float64Array;
+  /** per segment: rows as indices into the union of the rows of all segments (`xu`) */
+  loc: Int32Array[];
+  /** union of the segments' row positions, relative to their midpoint x₀, and the segment centres relative to x₀ */
+  xu: Float64Array;
+  xc: Float64Array;
+  /** max |x − x₀| over the rows */
+  half: number;
+  g1: Float64Array;
+  g2: Float64Array;
+}
+
+function prepare(G: Mat, x: Float64Array, segs: Segment[]): Prep {
+  const used = new Map<number, number>();
+  for (const sg of segs) for (let q = 0; q < sg.rows.length; q++) if (!used.has(sg.rows[q]!)) used.set(sg.rows[q]!, used.size);
+  let lo = Infinity, hi = -Infinity;
+  for (const i of used.keys()) { lo = Math.min(lo, x[i]!); hi = Math.max(hi, x[i]!); }
+  const x0 = 0.5 * (lo + hi);
+  const xu = new Float64Array(used.size);
+  for (const [i, k] of used) xu[k] = x[i]! - x0;
+  const y: Float64Array[] = [], t: Float64Array[] = [], loc: Int32Array[] = [];
+  const yy = new Float64Array(segs.length);
+  segs.forEach((sg, g) => {
+    const m = sg.rows.length;
+    const ys = new Float64Array(m), ts = new Float64Array(m), ls = new Int32Array(m);
+    let e = 0;
+    for (let q = 0; q < m; q++) { const i = sg.rows[q]!; ys[q] = G.data[i * G.cols + sg.col]!; ts[q] = x[i]! - sg.xc; ls[q] = used.get(i)!; e += ys[q]! * ys[q]!; }
+    y.push(ys); t.push(ts); loc.push(ls); yy[g] = e;
+  });
+  return { y, t, yy, loc, xu, xc: Float64Array.from(segs, (sg) => sg.xc - x0), half: 0.5 * (hi - lo), g1: new Float64Array(used.size), g2: new Float64Array(used.size) };
+}
+
+/**
+ * Residual energy of the best fit of all segments for given (p, θ). The basis of each segment is
+ * e^{−pt/2}{cos wt, sin wt / w} (cosh/sinh for θ < 0, {1, t} at θ = 0) in the offset t = x − x_c
+ * from its centre. Fast path: the same functions from per-row values shared by all segments
+ * (angle-addition and exponential product rules: e^{−pt/2}cos wt = e^{p x_c/2}·Re(e^{−px/2}e^{iwx}e^{−iwx_c})),
+ * used where they are accurate: w·(row range) ≥ 0.01, and exponents within ±600.
+ */
+function objective(pr: Prep, p: number, theta: number): number {
   let res = 0;
   const w = Math.sqrt(Math.abs(theta));
-  for (const sg of segs) {
-    let s11 = 0, s12 = 0, s22 = 0, b1 = 0, b2 = 0, yy = 0;
-    for (let q = 0; q < sg.rows.length; q++) {
-      const i = sg.rows[q]!;
-      const t = x[i]! - sg.xc;
-      const e = Math.exp(-0.5 * p * t);
-      let f1: number, f2: number;
-      if (theta > 1e-12) { f1 = Math.cos(w * t); f2 = Math.sin(w * t) / w; }
-      else if (theta < -1e-12) { f1 = Math.cosh(w * t); f2 = Math.sinh(w * t) / w; }
-      else { f1 = 1; f2 = t; }
-      f1 *= e; f2 *= e;
-      const y = G.data[i * G.cols + sg.col]!;
-      s11 += f1 * f1; s12 += f1 * f2; s22 += f2 * f2; b1 += f1 * y; b2 += f2 * y; yy += y * y;
+  const wave = theta > 1e-12 ? 1 : theta < -1e-12 ? -1 : 0;
+  const fast = (wave === 0 || w * 2 * pr.half >= 0.01) && (0.5 * Math.abs(p) + (wave < 0 ? w : 0)) * pr.half < 600;
+  const { g1, g2, xu } = pr;
+  if (fast) {
+    for (let k = 0; k < xu.length; k++) {
+      const u = xu[k]!;
+      if (wave > 0) { const e = Math.exp(-0.5 * p * u); g1[k] = e * Math.cos(w * u); g2[k] = e * Math.sin(w * u); }
+      else if (wave < 0) { g1[k] = Math.exp((w - 0.5 * p) * u); g2[k] = Math.exp((-w - 0.5 * p) * u); }
+      else g1[k] = Math.exp(-0.5 * p * u);
+    }
+  }
+  for (let g = 0; g < pr.y.length; g++) {
+    const y = pr.y[g]!, t = pr.t[g]!, loc = pr.loc[g]!, m = y.length;
+    let s11 = 0, s12 = 0, s22 = 0, b1 = 0, b2 = 0;
+    if (fast) {
+      const c = pr.xc[g]!, E = Math.exp(0.5 * p * c);
+      if (wave > 0) {
+        const C = E * Math.cos(w * c), S = E * Math.sin(w * c), iw = 1 / w;
+        for (let q = 0; q < m; q++) {
+          const k = loc[q]!, a = g1[k]!, b = g2[k]!;
+          const f1 = a * C + b * S, f2 = (b * C - a * S) * iw, yv = y[q]!;
+          s11 += f1 * f1; s12 += f1 * f2; s22 += f2 * f2; b1 += f1 * yv; b2 += f2 * yv;
+        }
+      } else if (wave < 0) {
+        const A = 0.5 * E * Math.exp(-w * c), B = 0.5 * E * Math.exp(w * c), iw = 1 / w;
+        for (let q = 0; q < m; q++) {
+          const k = loc[q]!, a = g1[k]! * A, b = g2[k]! * B;
+          const f1 = a + b, f2 = (a - b) * iw, yv = y[q]!;
+          s11 += f1 * f1; s12 += f1 * f2; s22 += f2 * f2; b1 += f1 * yv; b2 += f2 * yv;
+        }
+      } else {
+        for (let q = 0; q < m; q++) {
+          const f1 = g1[loc[q]!]! * E, f2 = f1 * t[q]!, yv = y[q]!;
+          s11 += f1 * f1; s12 += f1 * f2; s22 += f2 * f2; b1 += f1 * yv; b2 += f2 * yv;
+        }
+      }
+    } else {
+      for (let q = 0; q < m; q++) {
+        const tq = t[q]!;
+        const e = Math.exp(-0.5 * p * tq);
+        let f1: number, f2: number;
+        if (wave > 0) { f1 = Math.cos(w * tq); f2 = Math.sin(w * tq) / w; }
+        else if (wave < 0) { f1 = Math.cosh(w * tq); f2 = Math.sinh(w * tq) / w; }
+        else { f1 = 1; f2 = tq; }
+        f1 *= e; f2 *= e;
+        const yv = y[q]!;
+        s11 += f1 * f1; s12 += f1 * f2; s22 += f2 * f2; b1 += f1 * yv; b2 += f2 * yv;
+      }
     }
     const det = s11 * s22 - s12 * s12;
     let fitE = 0;
     if (det > 1e-14 * s11 * s22 && det > 0) fitE = (s22 * b1 * b1 - 2 * s12 * b1 * b2 + s11 * b2 * b2) / det;
     else if (s11 > 0) fitE = b1 * b1 / s11;
-    res += Math.max(0, yy - fitE);
+    res += Math.max(0, pr.yy[g]! - fitE);
   }
   return res;
 }
@@ -108,13 +186,13 @@ function energy(G: Mat, segs: Segment[]): number {
 /** Signed wavenumber parametrisation: κs = sign(θ)·√|θ|. */
 const toTheta = (ks: number) => Math.sign(ks) * ks * ks;
 
-function refine(G: Mat, x: Float64Array, segs: Segment[], p0: number, ks0: number, dp0: number, dk0: number, maxIt: number): { p: number; ks: number; f: number } {
-  let p = p0, ks = ks0, f = objective(G, x, segs, p, toTheta(ks));
+function refine(pr: Prep, p0: number, ks0: number, dp0: number, dk0: number, maxIt: number): { p: number; ks: number; f: number } {
+  let p = p0, ks = ks0, f = objective(pr, p, toTheta(ks));
   let dp = dp0, dk = dk0;
   for (let it = 0; it < maxIt && (dp > 1e-7 * (1 + Math.abs(p)) || dk > 1e-7 * (1 + Math.abs(ks))); it++) {
     let moved = false;
     for (const [cp, ck] of [[dp, 0], [-dp, 0], [0, dk], [0, -dk], [dp, dk], [-dp, -dk], [dp, -dk], [-dp, dk]] as const) {
-      const fn = objective(G, x, segs, p + cp, toTheta(ks + ck));
+      const fn = objective(pr, p + cp, toTheta(ks + ck));
       if (fn < f) { f = fn; p += cp; ks += ck; moved = true; break; }
     }
     if (!moved) { dp /= 2; dk /= 2; }
@@ -126,19 +204,20 @@ function refine(G: Mat, x: Float64Array, segs: Segment[], p0: number, ks0: numbe
 function fitWave(G: Mat, x: Float64Array, segs: Segment[], kmax: number, start: { p: number; ks?: number; fixP?: boolean }): WaveFit & { ks: number } {
   const fixP = !!start.fixP;
   const E = energy(G, segs);
+  const pr = prepare(G, x, segs);
   let best: { p: number; ks: number; f: number };
   const dk = (2 * kmax) / 160, dpp = kmax / 20;
-  if (start.ks !== undefined) best = refine(G, x, segs, start.p, start.ks, fixP ? 0 : dpp / 8, dk / 4, 60);
+  if (start.ks !== undefined) best = refine(pr, start.p, start.ks, fixP ? 0 : dpp / 8, dk / 4, 60);
   else {
     // grid in the signed wavenumber at the starting drift, then a joint local search from the best three
     const top: { p: number; ks: number; f: number }[] = [];
     for (let a = 0; a <= 160; a++) {
       const ks = -kmax + a * dk;
-      const f = objective(G, x, segs, start.p, toTheta(ks));
+      const f = objective(pr, start.p, toTheta(ks));
       top.push({ p: start.p, ks, f });
     }
     top.sort((u, v) => u.f - v.f);
-    best = top.slice(0, 3).map((t) => refine(G, x, segs, t.p, t.ks, fixP ? 0 : dpp / 2, dk / 2, 400)).sort((u, v) => u.f - v.f)[0]!;
+    best = top.slice(0, 3).map((t) => refine(pr, t.p, t.ks, fixP ? 0 : dpp / 2, dk / 2, 400)).sort((u, v) => u.f - v.f)[0]!;
   }
   const theta = toTheta(best.ks);
   const points = segs.reduce((s, g) => s + g.rows.length, 0);

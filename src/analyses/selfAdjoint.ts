@@ -13,9 +13,9 @@ import type { Analysis, AnalysisOutput } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Context } from './analysis.js';
 import type { Mat } from '../linalg/dense.js';
-import { zeros } from '../linalg/dense.js';
+import { zeros, matmul, matmulTN } from '../linalg/dense.js';
 import { squareView, tile, weightedNorm, replicates, deviations, rms, decide, sig, downsample, domainLength, colocated, type SquareView } from './util/a_common.js';
-import { kernelSpectrum } from './order.js';
+import { kernelSpectrum, projectedDeviations } from './order.js';
 
 type F = Findings['self_adjoint'];
 
@@ -27,11 +27,24 @@ export function skewPart(G: Mat): Mat {
   return out;
 }
 
+/** ‖A − Aᵀ‖_W = √(Σ_ij w_i w_j (A_ij − A_ji)²) of a square matrix, without forming A − Aᵀ. */
+export function skewNorm(A: Mat, w: ArrayLike<number>): number {
+  const n = A.rows;
+  let s = 0;
+  for (let i = 0; i < n; i++) {
+    const o = i * n, wi = w[i]!;
+    let r = 0;
+    for (let j = 0; j < i; j++) { const d = A.data[o + j]! - A.data[j * n + i]!; r += w[j]! * d * d; }
+    s += wi * r;
+  }
+  return Math.sqrt(2 * s);
+}
+
 /** Weighted defect ‖G − Gᵀ‖_W / ‖G‖_W of a square kernel (0 for a self-adjoint one). */
 export function adjointDefect(G: Mat, w: Float64Array): number {
   const den = weightedNorm(G, w, w);
   if (!(den > 0)) return NaN;
-  return weightedNorm(skewPart(G), w, w) / den;
+  return skewNorm(G, w) / den;
 }
 
 /**
@@ -64,7 +77,7 @@ export function driftedKernel(G: Mat, view: SquareView, dim: number, L: number, 
 export function adjointResolution(kernel: Kernel, view: SquareView, G: Mat, w: Float64Array): number {
   const D = driftedKernel(G, view, kernel.dimension, domainLength(kernel), 1);
   const den = weightedNorm(D, w, w);
-  return den > 0 ? weightedNorm(skewPart(D), w, w) / den : NaN;
+  return den > 0 ? skewNorm(D, w) / den : NaN;
 }
 
 export interface AdjointTest {
@@ -85,21 +98,14 @@ export interface AdjointTest {
  * G·P itself is not. Returned in the shape the defect formula expects (unit weights).
  */
 function compress(G: Mat, w: Float64Array, V: Mat): Mat {
-  const n = G.rows, K = V.cols;
-  const sw = Float64Array.from(w, Math.sqrt);
-  const AV = zeros(n, K);
-  for (let i = 0; i < n; i++) {
-    const o = i * n;
-    for (let j = 0; j < n; j++) { const a = sw[i]! * G.data[o + j]! * sw[j]!; if (a === 0) continue; const vo = j * K; for (let k = 0; k < K; k++) AV.data[i * K + k] += a * V.data[vo + k]!; }
-  }
-  const B = zeros(K, K);
-  for (let i = 0; i < n; i++) for (let k = 0; k < K; k++) { const v = V.data[i * K + k]!; if (v === 0) continue; for (let l = 0; l < K; l++) B.data[k * K + l] += v * AV.data[i * K + l]!; }
-  return B;
+  const Vw = zeros(V.rows, V.cols);
+  for (let i = 0; i < V.rows; i++) { const si = Math.sqrt(w[i]!); for (let k = 0; k < V.cols; k++) Vw.data[i * V.cols + k] = si * V.data[i * V.cols + k]!; }
+  return matmulTN(Vw, matmul(G, Vw));
 }
 
 /** The statistic and its floor; exported for the coupling analysis and for tests. `span`: compare on this
  * orthonormal subspace (weighted coordinates) only, for a kernel restricted to the forcings' span. */
-export function adjointTest(kernel: Kernel, reps: Mat[], span?: Mat): AdjointTest {
+export function adjointTest(kernel: Kernel, reps: Mat[], span?: Mat, projected?: Float64Array[]): AdjointTest {
   const view = squareView(kernel);
   if (!view) return { defect: NaN, floor: NaN, replicateDefects: [], applicable: false, interpolated: false, resolution: NaN };
   const c = kernel.components.in;
@@ -107,19 +113,22 @@ export function adjointTest(kernel: Kernel, reps: Mat[], span?: Mat): AdjointTes
     const one = new Float64Array(span.cols).fill(1);
     const B = compress(kernel.G, view.w, span);
     const den = weightedNorm(B, one, one);
-    const devs = deviations(reps).map((d) => compress(d, view.w, span));
-    const rd = devs.map((d) => weightedNorm(skewPart(d), one, one) / den);
+    // `projected`: the deviations already compressed (Vᵀ W^½ D W^½ V, K × K each), e.g. from the shared spectrum
+    const K = span.cols;
+    const devs = projected && projected.length === (reps.length >= 2 ? reps.length : 0) ? projected.map((C) => ({ rows: K, cols: K, data: C }))
+      : deviations(reps).map((d) => compress(d, view.w, span));
+    const rd = devs.map((d) => skewNorm(d, one) / den);
     return {
-      defect: weightedNorm(skewPart(B), one, one) / den, floor: rd.length ? rms(rd) : NaN, replicateDefects: rd, applicable: true, interpolated: false,
+      defect: skewNorm(B, one) / den, floor: rd.length ? rms(rd) : NaN, replicateDefects: rd, applicable: true, interpolated: false,
       resolution: adjointResolution(kernel, view, kernel.G, view.w),
     };
   }
   const w = tile(view.w, c);
   const G = view.map(kernel.G);
   const den = weightedNorm(G, w, w);
-  const defect = weightedNorm(skewPart(G), w, w) / den;
+  const defect = skewNorm(G, w) / den;
   const devs = deviations(reps.map(view.map));
-  const rd = devs.map((d) => weightedNorm(skewPart(d), w, w) / den);
+  const rd = devs.map((d) => skewNorm(d, w) / den);
   return { defect, floor: rd.length ? rms(rd) : NaN, replicateDefects: rd, applicable: true, interpolated: view.interpolated, resolution: adjointResolution(kernel, view, G, w) };
 }
 
@@ -129,13 +138,15 @@ export const selfAdjoint: Analysis<F> = {
     // a kernel known only on the forcings' span is compared on its leading (identified) subspace
     const cov = ctx.fit?.coverage;
     let span: Mat | undefined;
+    let projected: Float64Array[] | undefined;
     if (cov && cov.complete === false && colocated(kernel) && kernel.components.in === 1 && kernel.components.out === 1) {
       const sp = kernelSpectrum(kernel, replicates(ctx), cov.identified_rank);
       const K = Math.min(sp.svd.V.cols, Math.max(1, cov.identified_rank));
       span = zeros(sp.svd.V.rows, K);
       for (let i = 0; i < span.rows; i++) for (let k = 0; k < K; k++) span.data[i * K + k] = sp.svd.V.data[i * sp.svd.V.cols + k]!;
+      projected = projectedDeviations(sp, replicates(ctx), K, Infinity, 'V');
     }
-    const t = adjointTest(kernel, replicates(ctx), span);
+    const t = adjointTest(kernel, replicates(ctx), span, projected);
     const explanation =
       'We compare the kernel with its mirror image G(s, x): a self-adjoint (reciprocal) system responds at x to a source at s exactly as it responds at s to a source at x. ' +
       'The number is the size of the difference relative to the kernel, with each point counted by its quadrature weight. ' +

@@ -1,6 +1,7 @@
 import { describe, it, expect } from 'vitest';
 import { order, kernelSpectrum, decayFit } from '../../src/analyses/order.js';
-import { kernel1d, laplace, advdiff, screened, clampedBeam, simplyBeam } from '../helpers/closedForms.js';
+import { kernel1d, laplace, advdiff, screened, clampedBeam, simplyBeam, piecewise, sampleKernel } from '../helpers/closedForms.js';
+import { slopeJumpFunctionals, applyJumpFunctionals, spectralNorm, sqrtWeighted, analysisRng } from '../../src/analyses/util/a_common.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
 
 describe('order', () => {
@@ -35,5 +36,35 @@ describe('order', () => {
     const f = order.run(kernel, ctx).finding;
     expect(f.decay).toBe('exponential');
     expect(f.estimate).toBeNull();
+  });
+
+  it('slope-jump functionals give [∂xG] = −1/a(s) at the diagonal, for points in any order (Stakgold & Holst; references entries (e), (i))', () => {
+    // a shuffled point list: the functionals sort internally and index the original points
+    const n = 241;
+    const perm = Array.from({ length: n }, (_, i) => (i * 97) % n);
+    const x = Float64Array.from(perm, (i) => i / (n - 1));
+    const G = sampleKernel(piecewise(1, 10, 0.4), x);
+    const fn = slopeJumpFunctionals(x);
+    const J = applyJumpFunctionals(G, fn);
+    const w = fn.halfWidth;
+    let checked = 0;
+    fn.s.forEach((s, q) => {
+      if (Math.abs(s - 0.4) <= w + 1e-9) return; // the window straddles the interface
+      expect(Math.abs(J[q]! + 1 / (s < 0.4 ? 1 : 10))).toBeLessThan(1e-9); // piecewise linear: exact in the basis
+      checked++;
+    });
+    expect(checked).toBeGreaterThan(100);
+    // screened −u″ + 25u (smooth off the diagonal): the same jump −1, to the quartic's accuracy
+    const Gs = sampleKernel(screened(5), x);
+    for (const v of applyJumpFunctionals(Gs, fn)) expect(Math.abs(v + 1)).toBeLessThan(1e-4);
+  });
+
+  it('weighted spectral norm = largest singular value 1/π² of the Green\'s operator of −u″ (Stakgold & Holst; references §4)', () => {
+    const k = kernel1d(laplace(), 200);
+    const sw = Float64Array.from(k.weightsIn, Math.sqrt);
+    const implicit = spectralNorm(k.G, analysisRng(3), 200, sw, sw);
+    const explicit = spectralNorm(sqrtWeighted(k.G, k.weightsIn, k.weightsIn), analysisRng(3), 200);
+    expect(Math.abs(implicit * Math.PI ** 2 - 1)).toBeLessThan(2e-3);
+    expect(Math.abs(implicit - explicit)).toBeLessThan(1e-12 * explicit);
   });
 });
