@@ -282,7 +282,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   });
   // truncation error of the basis size (invisible to the bootstrap): the fits at the two next smaller
   // sizes K' > K'' give d1 = ‖Ĝ_K − Ĝ_K'‖, d2 = ‖Ĝ_K' − Ĝ_K''‖; if they converge (d1 < d2), geometric
-  // convergence extrapolates the error at K to d1 (d1/d2)^((K − K')/(K' − K'')) (Richardson-type estimate).
+  // convergence extrapolates the error at K to d1 (d1/d2)^((K − K')/(K' − K'')) (Richardson-type estimate);
+  // if they do not, d1/√2 (the two fits' errors taken as uncorrelated and of equal size).
   let trunc2 = 0;
   const truncDirs: { p: number; D: Mat; scale: number }[] = [];
   fits.forEach((f, p) => {
@@ -297,8 +298,11 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     let d1 = 0, d2 = 0;
     for (let u = 0; u < G0.data.length; u++) { d1 += (G0.data[u]! - G1.data[u]!) ** 2; d2 += (G1.data[u]! - G2.data[u]!) ** 2; }
     d1 = Math.sqrt(d1); d2 = Math.sqrt(d2);
-    if (d1 < d2 && d2 > 0 && d1 > 0) {
-      const e = d1 * Math.pow(d1 / d2, (f.K - t1.K) / (t1.K - t2.K));
+    if (d1 > 0) {
+      // fits that do not converge with the size (d1 ≥ d2) give no rate to extrapolate: the data fit Ĝ_K and Ĝ_K'
+      // about equally well, and two estimates with uncorrelated errors of equal size e differ by √2·e in the
+      // mean square, so the error is taken as d1/√2
+      const e = d1 < d2 ? d1 * Math.pow(d1 / d2, (f.K - t1.K) / (t1.K - t2.K)) : d1 / Math.SQRT2;
       trunc2 += e * e;
       const D = zeros(G0.rows, G0.cols);
       for (let u = 0; u < D.data.length; u++) D.data[u] = G0.data[u]! - G1.data[u]!;
