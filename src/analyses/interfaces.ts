@@ -354,7 +354,7 @@ function stepColumns(x: Float64Array, tau: number, blur: number): [Float64Array,
  * replicate standard deviation of each feature (pointwise), `nEff` the number of independent
  * windows.
  */
-export function compareModels(p: Profiles, sd: Record<string, Float64Array>, names: string[]): { fits: SegmentFit[]; weights: Record<ModelName, number> } {
+export function compareModels(p: Profiles, sd: Record<string, Float64Array>, names: string[]): { fits: SegmentFit[]; weights: Record<ModelName, number>; nEff: number } {
   const { centers: x, lo, hi, h } = p;
   const L = hi - lo;
   const gridAll: number[] = [];
@@ -436,7 +436,7 @@ export function compareModels(p: Profiles, sd: Record<string, Float64Array>, nam
   const wsum = ws.reduce((a, b) => a + b, 0);
   const weights = { constant: 0, trend: 0, step: 0, 'two-steps': 0 } as Record<ModelName, number>;
   out.forEach((f, i) => { weights[f.model] = ws[i]! / wsum; });
-  return { fits: out, weights };
+  return { fits: out, weights, nEff };
 }
 
 // ------------------------------------------------------------------ the analysis
@@ -449,16 +449,27 @@ export function compareModels(p: Profiles, sd: Record<string, Float64Array>, nam
  * (|Δ sign(γ)√|γ|| L ≥ π/2). Smaller changes are not told apart from smooth variation.
  */
 export const MEANINGFUL: Record<string, number> = { log_inv_diffusion: Math.log(1.25), drift: 1, asym_drift: 1, wave: Math.PI / 2 };
-/** a change counts when it is both meaningful and ≥ 3 standard errors (common practice) */
+/** a change counts when it is both meaningful and ≥ 3 standard errors (common practice) … */
 const SIGNIFICANT = 3;
+/**
+ * … with the 3-σ tail shared out over the nEff independent windows the change point is searched
+ * over (Bonferroni: the largest of nEff step statistics is not a single one's), z with
+ * nEff·(1 − Φ(z)) = 1 − Φ(3); by bisection on Φ.
+ */
+export function scanThreshold(nEff: number): number {
+  const tail = (1 - normalCdf(SIGNIFICANT)) / Math.max(1, nEff);
+  let lo = SIGNIFICANT, hi = 10;
+  for (let it = 0; it < 60; it++) { const m = (lo + hi) / 2; if (1 - normalCdf(m) > tail) lo = m; else hi = m; }
+  return (lo + hi) / 2;
+}
 
 function meaningfulSize(nm: string): number { return MEANINGFUL[nm] ?? Infinity; }
 
 /** which changes of a fitted step model are meaningful and significant in at least one feature */
-function realChanges(f: SegmentFit, names: string[]): boolean[] {
+function realChanges(f: SegmentFit, names: string[], z: number): boolean[] {
   return f.taus.map((_, t) => names.some((nm, i) => {
     const st = Math.abs(f.steps[t]![i]!), se = f.stepSe[t]![i]!;
-    return Number.isFinite(st) && st >= meaningfulSize(nm) && !(st < SIGNIFICANT * se);
+    return Number.isFinite(st) && st >= meaningfulSize(nm) && !(st < z * se);
   }));
 }
 
@@ -472,11 +483,12 @@ export interface Decision {
 }
 
 /** Model choice restricted to physically meaningful changes, and the power to see one. */
-export function decide(cmp: { fits: SegmentFit[]; weights: Record<ModelName, number> }, names: string[]): Decision {
+export function decide(cmp: { fits: SegmentFit[]; weights: Record<ModelName, number>; nEff: number }, names: string[]): Decision {
   let chosen: SegmentFit | null = null;
   let pSharp = 0;
+  const z = scanThreshold(cmp.nEff);
   for (const f of cmp.fits) {
-    const real = realChanges(f, names);
+    const real = realChanges(f, names, z);
     if (real.some(Boolean)) pSharp += cmp.weights[f.model];
     if (real.every(Boolean) && (!chosen || f.bic < chosen.bic)) chosen = f;
   }
@@ -484,8 +496,8 @@ export function decide(cmp: { fits: SegmentFit[]; weights: Record<ModelName, num
   const power: Record<string, number> = {};
   names.forEach((nm, i) => {
     const se = step.stepSe[0]?.[i] ?? NaN;
-    // P(a change of the meaningful size clears 3 standard errors)
-    power[nm] = Number.isFinite(se) && se > 0 ? normalCdf(meaningfulSize(nm) / se - SIGNIFICANT) : 0;
+    // P(a change of the meaningful size clears the threshold)
+    power[nm] = Number.isFinite(se) && se > 0 ? normalCdf(meaningfulSize(nm) / se - z) : 0;
   });
   return { chosen: chosen ?? cmp.fits[0]!, pSharp, power };
 }
@@ -557,12 +569,13 @@ export function refineLocation(G: Mat, x: Float64Array, s: Float64Array, t0: num
 
 export interface InterfaceResult {
   /** confidence: that a change exists and lies within 2 % of the length of `location`; existence: that it exists */
-  interfaces: { location: number; uncertainty: number; confidence: number; existence: number }[];
+  interfaces: { location: number; uncertainty: number; confidence: number; existence: number; evidence: string[] }[];
   profiles: Profiles;
   sd: Record<string, Float64Array>;
   used: string[];
-  weights: Record<ModelName, number>;
-  chosen: SegmentFit;
+  /** per feature: the model weights and the preferred model among those whose every change is real */
+  models: Record<string, { weights: Record<ModelName, number>; chosen: SegmentFit }>;
+  /** the largest probability of a sharp change over the features */
   pSharp: number;
   power: Record<string, number>;
 }
@@ -593,68 +606,94 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
       return Math.sqrt(rep2 + (Number.isFinite(sys) ? sys * sys : 0));
     });
   }
-  // keep features defined on most of the domain
+  // keep features defined on most of the domain; where the kernel's asymmetry gives the drift
+  // exactly (a_semisep.ts), the recurrence's drift — which the columns' kinks at a change of
+  // conductivity disturb — is not used
   let used = names.filter((nm) => Array.from(main.features[nm]!).filter(Number.isFinite).length >= 0.7 * main.centers.length);
-  let cmp = compareModels(main, sd, used);
-  let dec = decide(cmp, used);
-  if (used.includes('asym_drift') && used.includes('drift')) {
-    // where the kernel's asymmetry shows a real change of drift, the exact asymmetry measure
-    // replaces the recurrence's drift (which the columns' kinks disturb); otherwise the latter
-    // stays as a detector of those kinks
-    const alt = used.filter((nm) => nm !== 'drift');
-    const cmpA = compareModels(main, sd, alt), decA = decide(cmpA, alt);
-    const ia = alt.indexOf('asym_drift');
-    const driftReal = decA.chosen.taus.some((_, t) => Math.abs(decA.chosen.steps[t]![ia]!) >= meaningfulSize('asym_drift') && !(Math.abs(decA.chosen.steps[t]![ia]!) < SIGNIFICANT * decA.chosen.stepSe[t]![ia]!));
-    if (driftReal) { used = alt; cmp = cmpA; dec = decA; }
-  }
-  const chosen = dec.chosen;
+  if (used.includes('asym_drift')) used = used.filter((nm) => nm !== 'drift');
+  // each coefficient is compared on its own (constant / trend / one / two sharp changes): a change
+  // of conductivity need not come with a change of drift, and a shared model would charge the
+  // unchanged profiles' wiggles against the change
+  const perFeature = (p: Profiles) => used.map((nm) => { const cmp = compareModels(p, sd, [nm]); return { nm, cmp, dec: decide(cmp, [nm]) }; });
+  const feats = perFeature(main);
+  const blurMax = Math.max(...used.map((nm) => main.blur[nm]!));
+  const minSep = 2 * blurMax;
+  // candidate changes: every feature's preferred sharp changes, merged when closer than the
+  // smallest separation the model comparison resolves; the exact-identity profiles lead
+  const order = (nm: string) => (nm === 'asym_drift' ? 0 : nm === 'log_inv_diffusion' ? 1 : 2);
+  type Cand = { tau0: number; feats: string[]; exist: number; steps: Record<string, number> };
+  const candidates = (fs: ReturnType<typeof perFeature>): Cand[] => {
+    const out: Cand[] = [];
+    for (const { nm, cmp, dec } of fs.slice().sort((a, b) => order(a.nm) - order(b.nm))) {
+      const ch = dec.chosen;
+      if (ch.model !== 'step' && ch.model !== 'two-steps') continue;
+      const exist = ch.model === 'two-steps' ? Math.min(dec.pSharp, cmp.weights['two-steps'] + cmp.weights.step) : dec.pSharp;
+      ch.taus.forEach((t, k) => {
+        const near = out.find((c) => Math.abs(c.tau0 - t) < minSep);
+        if (near) { near.feats.push(nm); near.exist = Math.max(near.exist, exist); near.steps[nm] = ch.steps[k]![0]!; }
+        else out.push({ tau0: t, feats: [nm], exist, steps: { [nm]: ch.steps[k]![0]! } });
+      });
+    }
+    return out.sort((a, b) => a.tau0 - b.tau0);
+  };
+  const cands = candidates(feats);
   const interfaces: InterfaceResult['interfaces'] = [];
-  if (chosen.model === 'step' || chosen.model === 'two-steps') {
-    // replicates: the same decision on each; locations from the chosen model's refit
-    const repDec = reps.slice(0, 4).map((r) => { const c = compareModels(r, sd, used); return { c, d: decide(c, used) }; });
-    const repTaus = repDec.map(({ c }) => c.fits.find((f) => f.model === chosen.model)!.taus);
-    const agree = repDec.filter(({ d }) => d.pSharp > 0.5).length;
-    const recur = repDec.length ? (agree + 1) / (repDec.length + 2) : 0.5;
-    const uniform = isUniform(main.centers.length ? kernel.pointsOut.data.slice(0, kernel.pointsOut.rows) : new Float64Array());
-    const blurMax = Math.max(...used.map((nm) => main.blur[nm]!));
+  if (cands.length) {
+    const repCands = reps.slice(0, 4).map((r) => candidates(perFeature(r)));
+    const uniform = isUniform(kernel.pointsOut.data.slice(0, kernel.pointsOut.rows));
     const xo = kernel.pointsOut.data.slice(0, kernel.pointsOut.rows), si = kernel.pointsIn.data.slice(0, kernel.pointsIn.rows);
     const gapR = Math.max(3 * main.h, 0.03 * (main.hi - main.lo));
     const coloc = colocatedSorted(xo, si);
-    const real = (k: number, nm: string) => { const i = used.indexOf(nm); return i >= 0 && Math.abs(chosen.steps[k]![i]!) >= meaningfulSize(nm) && !(Math.abs(chosen.steps[k]![i]!) < SIGNIFICANT * chosen.stepSe[k]![i]!); };
     // locate each change on the kernel itself with an exact local model of the change found
-    // (a_semisep.ts), giving a profile-likelihood interval: a change of conductivity is a kink of
-    // the columns' factors; a change of drift alone is a kink of the asymmetry potential ∫ b/a
+    // (a_semisep.ts), giving a profile-likelihood interval: a change of drift is a kink of the
+    // asymmetry potential ∫ b/a; a change of conductivity is a kink of the columns' factors
     type Loc = { tau: number; halfWidth: number };
-    const refine = (G: Mat, t: number, k: number): Loc => {
+    const refine = (G: Mat, t: number, c: Cand): Loc => {
       if (!uniform) return { tau: t, halfWidth: NaN };
       const B = block00(kernel, G);
       let loc: Loc | null = null;
-      // the recurrence's drift also jumps at a mere change of conductivity (the columns' kink);
-      // the asymmetry's does not: a recurrence-only change is located as a kink
-      if (real(k, 'asym_drift') && coloc) loc = locateDriftChange(B, xo, t, blurMax, 1.5 * blurMax, Math.max(2 * main.h, 0.01 * (main.hi - main.lo)));
-      else if (real(k, 'log_inv_diffusion') || (used.includes('asym_drift') && real(k, 'drift'))) loc = locateKink(B, xo, si, t, blurMax, 1.5 * blurMax, gapR);
+      if (c.feats.includes('asym_drift') && coloc) loc = locateDriftChange(B, xo, t, blurMax, 1.5 * blurMax, Math.max(2 * main.h, 0.01 * (main.hi - main.lo)));
+      else if (c.feats.includes('log_inv_diffusion') || c.feats.includes('drift')) loc = locateKink(B, xo, si, t, blurMax, 1.5 * blurMax, gapR);
       if (loc) return loc;
-      const opChange = used.some((nm) => nm !== 'log_inv_diffusion' && real(k, nm));
-      return { tau: refineLocation(B, xo, si, t, blurMax, gapR, opChange), halfWidth: NaN };
+      return { tau: refineLocation(B, xo, si, t, blurMax, gapR, c.feats.some((nm) => nm !== 'log_inv_diffusion')), halfWidth: NaN };
     };
-    chosen.taus.forEach((tau0, k) => {
-      const { tau, halfWidth } = refine(kernel.G, tau0, k);
-      const locs = repTaus.slice(0, 4).map((t, q) => refine(replicates[q]!, t[k]!, k).tau).filter(Number.isFinite);
+    // the locators fit one change to a window around their start; the fit's ringing can pull
+    // them to a neighbouring feature. Started across the profile model's own uncertainty (half
+    // its window either side), the median is the location and the robust spread (1.4826·MAD,
+    // Hampel 1974) of the answers the window sensitivity
+    const located = (G: Mat, c: Cand): Loc & { windowSpread: number } => {
+      const starts = Array.from({ length: 11 }, (_, q) => c.tau0 + (blurMax / 2) * ((q - 5) / 5));
+      const ls = starts.map((t) => refine(G, t, c)).filter((l) => Number.isFinite(l.tau));
+      if (!ls.length) return { tau: c.tau0, halfWidth: NaN, windowSpread: NaN };
+      const med = (v: number[]) => { const u = v.slice().sort((a, b) => a - b); const m = u.length >> 1; return u.length % 2 ? u[m]! : (u[m - 1]! + u[m]!) / 2; };
+      const tau = med(ls.map((l) => l.tau));
+      const hw = ls.map((l) => l.halfWidth).filter(Number.isFinite);
+      return { tau, halfWidth: hw.length ? med(hw) : NaN, windowSpread: 1.4826 * med(ls.map((l) => Math.abs(l.tau - tau))) };
+    };
+    for (const c of cands) {
+      const { tau, halfWidth, windowSpread } = located(kernel.G, c);
+      // replicates: is the same change found again, and where does the locator put it
+      const agree = repCands.filter((rc) => rc.some((d) => Math.abs(d.tau0 - c.tau0) < minSep)).length;
+      const recur = repCands.length ? (agree + 1) / (repCands.length + 2) : 0.5;
+      const locs = replicates.slice(0, 4).map((R) => refine(R, tau, c).tau).filter(Number.isFinite);
       let spread = 0;
       if (locs.length > 1) { const m = locs.reduce((a, b) => a + b, 0) / locs.length; spread = Math.sqrt(locs.reduce((a, b) => a + (b - m) ** 2, 0) / (locs.length - 1)); }
-      // uncertainty: replicate spread, the profile-likelihood half-width and the disagreement of
-      // the profile model and the kernel's own locator (a systematic part)
-      const sys = Number.isFinite(halfWidth) ? Math.hypot(halfWidth, Math.abs(tau - tau0) / 2) : Math.abs(tau - tau0) / 2;
-      const unc = Math.max(Math.hypot(spread, sys), main.h);
+      // uncertainty: the replicate spread, the window sensitivity and the profile-likelihood half-width (without a
+      // locator, the profile model's own resolution, a quarter of its window)
+      const unc = Math.max(Math.hypot(spread, Number.isFinite(windowSpread) ? windowSpread : 0, Number.isFinite(halfWidth) ? halfWidth : blurMax / 4), main.h);
       // confidence that a change exists and lies within 2 % of the domain length of the stated
       // location (the location accuracy the issue asks for), the error taken as Gaussian
       const tolLoc = 0.02 * (main.hi - main.lo);
       const locConf = 2 * normalCdf(tolLoc / unc) - 1;
-      const exist = (chosen.model === 'two-steps' ? Math.min(dec.pSharp, cmp.weights['two-steps'] + cmp.weights.step) : dec.pSharp) * Math.min(1, 2 * recur);
-      interfaces.push({ location: tau, uncertainty: unc, confidence: clamp01(exist * locConf), existence: clamp01(exist) });
-    });
+      const exist = c.exist * Math.min(1, 2 * recur);
+      interfaces.push({ location: tau, uncertainty: unc, confidence: clamp01(exist * locConf), existence: clamp01(exist), evidence: c.feats });
+    }
   }
-  return { interfaces, profiles: main, sd, used, weights: cmp.weights, chosen, pSharp: dec.pSharp, power: dec.power };
+  const power: Record<string, number> = {};
+  for (const { nm, dec } of feats) power[nm] = dec.power[nm] ?? 0;
+  const pSharp = feats.length ? Math.max(...feats.map((f) => f.dec.pSharp)) : 0;
+  const models = Object.fromEntries(feats.map((f) => [f.nm, { weights: f.cmp.weights, chosen: f.dec.chosen }]));
+  return { interfaces, profiles: main, sd, used, models, pSharp, power };
 }
 
 const EXPLANATION = 'Along the domain we measure local evidence of what the operator is doing: the size of the jump of the kernel\'s slope across its diagonal (the inverse of the local diffusion coefficient), and, from how the kernel\'s columns bend away from the diagonal, the local drift and the local oscillation or decay rate. We then ask which description of these profiles the data favour: no change, a smooth trend, one sharp change or two, scoring each by how well it fits against how many parameters it uses (an information criterion), with the spread over resampled kernels as the noise. An interface is reported only when a sharp change beats a smooth trend and is large enough to matter (a quarter change of conductivity, a Péclet number of one, a quarter period); when such a change could have gone unseen at this noise level, the answer is left undecided.';
@@ -691,7 +730,7 @@ export const interfacesAnalysis: Analysis<F> = {
     const summary = finding.length
       ? `${finding.length} interface${finding.length > 1 ? 's' : ''} at ` + finding.map((f) => `x ≈ ${(f.location as number).toFixed(3)} ± ${f.uncertainty.toFixed(3)}`).join(' and ') + ` (probability of a sharp change ${pSharp.toFixed(2)}; evidence: ${res.used.join(', ')}).`
       : verdict === 'none'
-        ? `No sharp change of character: the ${res.chosen.model === 'trend' ? 'smooth-trend' : res.chosen.model} description is preferred (probability of a sharp change ${pSharp.toFixed(2)}); a change of the smallest size we report would have been seen with probability ≥ ${power.toFixed(2)} (evidence: ${res.used.join(', ')}).`
+        ? `No sharp change of character: ${Object.entries(res.models).map(([nm, m]) => `${nm} ${m.chosen.model === 'trend' ? 'smooth trend' : m.chosen.model}`).join(', ')} preferred (largest probability of a sharp change ${pSharp.toFixed(2)}); a change of the smallest size we report would have been seen with probability ≥ ${power.toFixed(2)} (evidence: ${res.used.join(', ')}).`
         : unplaced
           ? `Undecided: a change probably exists (probability ${pSharp.toFixed(2)}) but cannot be placed within the estimator's window of ±${resolution.toFixed(2)} (evidence: ${res.used.join(', ')}).`
           : `Undecided: no sharp change stands out (probability ${pSharp.toFixed(2)}), but at this noise level a change of the smallest size we report would be seen only with probability ${power.toFixed(2)} (weakest evidence: ${weakest}).`;
@@ -699,7 +738,7 @@ export const interfacesAnalysis: Analysis<F> = {
       centers: Array.from(res.profiles.centers),
       features: Object.fromEntries(res.used.map((nm) => [nm, Array.from(res.profiles.features[nm]!, (v) => (Number.isFinite(v) ? sig4(v) : null))])),
       spread: Object.fromEntries(res.used.map((nm) => [nm, Array.from(res.sd[nm] ?? [], (v) => (Number.isFinite(v) ? sig4(v) : null))])),
-      model_weights: res.weights,
+      model_weights: Object.fromEntries(Object.entries(res.models).map(([nm, m]) => [nm, m.weights])),
       detection_power: Object.fromEntries(res.used.map((nm) => [nm, sig4(res.power[nm] ?? 0)])),
       smallest_change: Object.fromEntries(res.used.map((nm) => [nm, sig4(MEANINGFUL[nm] ?? NaN)])),
       interfaces: finding,

@@ -77,7 +77,7 @@ describe('interfaces from local evidence and a step/trend/constant model compari
     }
     // noise-free smooth a(x): the trend model wins outright
     const m0 = modalKernel(smoothA, { rel: 0, reps: 4, seed: 7 });
-    expect(detectInterfaces(m0.kernel, m0.replicates).chosen.model).toBe('trend');
+    expect(detectInterfaces(m0.kernel, m0.replicates).models['log_inv_diffusion']!.chosen.model).toBe('trend');
   });
 });
 
@@ -155,5 +155,14 @@ describe('exact-identity locators (a_semisep.ts) on closed-form kernels', () => 
       const l = locateDriftChange(K.G, xs, t0, 0.1, 0.15, 0.01)!;
       expect(Math.abs(l.tau - want)).toBeLessThan(0.01);
     }
+  });
+});
+
+describe('scan threshold for a searched change point', () => {
+  it('matches scipy: norm.isf(norm.sf(3) / nEff)', async () => {
+    const { scanThreshold } = await import('../../src/analyses/interfaces.js');
+    // python3: from scipy.stats import norm; norm.isf(norm.sf(3)/n) for n = 1, 4, 17, 50
+    const ref: [number, number][] = [[1, 3.0], [4, 3.3995578444761616], [17, 3.776870056162812], [50, 4.0376213227729405]];
+    for (const [n, z] of ref) expect(scanThreshold(n)).toBeCloseTo(z, 3);
   });
 });
