@@ -589,7 +589,8 @@ export function describeOperator(op: OperatorSpec): string {
   if (op.kind === 'kernel') return `u(x) = ∫ G(x, s) f(s) ds + u_h with G = ${op.kernel}`;
   if (op.kind === 'pde') {
     const dom = op.domain.kind === 'box' ? `box ${JSON.stringify(op.domain.bounds)}` : `disk centre ${JSON.stringify(op.domain.center)} radius ${op.domain.radius}`;
-    return `-∇·(${op.a} ∇u) + ${op.c} u = f on the ${dom}`;
+    const cu = op.c === 0 ? '' : op.c > 0 ? ` + ${op.c} u` : ` − ${-op.c} u`;
+    return `-∇·(${op.a} ∇u)${cu} = f on the ${dom}`;
   }
   const C = op.components.length;
   const lines = op.components.map((cp, i) => {
