@@ -18,7 +18,7 @@ import type { Prepared } from './prepare.js';
 import { tensorAxes } from '../quadrature.js';
 import type { Constraint } from './kink1d.js';
 import { type CoreFit, scalingTest, responseSize } from './core.js';
-import { singularKernel, singularResponses, singularCoefficients, subtractSingular, type SingularForm } from './spanSingular.js';
+import { singularKernel, singularResponses, singularCoefficients, subtractSingular, type SingularForm, type Shrinkage } from './spanSingular.js';
 
 export interface Prior { name: string; kind: 'white' | Covariance; lengthScale: number }
 
@@ -145,7 +145,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     return { form, Phi, Z: singularResponses(Phi, complete, FWc) };
   });
   if (forms.length) o.progress('span model: testing a singular part on the diagonal (logarithmic, with images, r² ln r) jointly with the prior');
-  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null } | null = null;
+  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null; shrink?: Shrinkage } | null = null;
   const tried: string[] = [];
   for (const prior of priors) {
     const KWF = priorTimes(prep, prior, FWc, Kcache);
@@ -155,13 +155,13 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     tried.push(`${prior.name}=${sol.gcv.toPrecision(4)}`);
     if (!best || sol.gcv < best.sol.gcv) best = { prior, sol, KWF, A, form: null, c: null };
     for (const f of forms) {
-      const c = singularCoefficients(sol.V, sol.d, sol.lambda, f.Z, Uc);
+      const { c, shrink } = singularCoefficients(sol.V, sol.d, sol.lambda, f.Z, Uc);
       const solS = gcvRows(A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length, eig);
       tried.push(`${prior.name}+${f.form}=${solS.gcv.toPrecision(4)}`);
-      if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c };
+      if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c, shrink };
     }
   }
-  const singular = best!.form && best!.c ? { form: best!.form.form, Phi: best!.form.Phi, Z: best!.form.Z, c: best!.c } : null;
+  const singular = best!.form && best!.c && best!.shrink ? { form: best!.form.form, Phi: best!.form.Phi, Z: best!.form.Z, c: best!.c, shrink: best!.shrink } : null;
   const singularNotes: Record<string, number | string> = {};
   if (forms.length) singularNotes.singular_part = singular ? singular.form : 'none';
   if (singular) {
@@ -202,7 +202,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     const sing = singular;
     // with a singular part: c_i by GLS from the rows' data, the span model on the remainder, plus c_i Φ(x_i, ·)
     const mapRows = !sing ? (U: Mat): Mat => baseMap(U) : (U: Mat): Mat => {
-      const c = singularCoefficients(sol.V, sol.d, sol.lambda, sing.Z, U);
+      const { c } = singularCoefficients(sol.V, sol.d, sol.lambda, sing.Z, U, sing.shrink);
       const Gm = baseMap(subtractSingular(U, sing.Z, c));
       complete.forEach((row, r) => { for (let k = 0; k < nI; k++) Gm.data[r * nI + k] += c[r]! * sing.Phi.data[row * nI + k]!; });
       return Gm;

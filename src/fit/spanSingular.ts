@@ -77,14 +77,23 @@ export function singularResponses(Phi: Mat, rows: number[], FWc: Mat): Mat {
   return matmulNT(sub, FWc);
 }
 
+/** Shrinkage of the per-sensor coefficients toward their precision-weighted mean: c̄ and b_i. */
+export interface Shrinkage { b: Float64Array; wts: Float64Array }
+
 /**
  * GLS coefficients c_i (flat prior) given the eigen-decomposition A = V diag(d) Vᵀ and λ:
- * c_i = ⟨V ᵀz_i, Vᵀũ_i⟩_(d+λ)⁻¹ / ⟨Vᵀz_i, Vᵀz_i⟩_(d+λ)⁻¹. Rows whose z_i carries no energy get 0.
+ * c_i = ⟨Vᵀz_i, Vᵀũ_i⟩_(d+λ)⁻¹ / ⟨Vᵀz_i, Vᵀz_i⟩_(d+λ)⁻¹, sampling variance τ² / ⟨Vᵀz_i, Vᵀz_i⟩_(d+λ)⁻¹
+ * with τ² = Σ ‖ũ_i − c_i z_i‖²_(A+λ)⁻¹ / (rows·N) (the ML scale). The coefficient (1/a(x) for a
+ * second-order operator) varies slowly, so the c_i are shrunk toward their precision-weighted mean by
+ * the empirical-Bayes (Morris) rule c_i ← c̄ + s²/(s² + v_i) (c_i − c̄), with the spread s² of the true
+ * coefficients by the method of moments (Efron & Morris, JASA 1973; Morris, JASA 1983). With `fixed`
+ * the shrinkage factors are reused (bootstrap replicates: the map stays linear in the data).
  */
-export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z: Mat, U: Mat): Float64Array {
+export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z: Mat, U: Mat, fixed?: Shrinkage): { c: Float64Array; shrink: Shrinkage } {
   const N = V.rows, rows = Z.rows;
   const CZ = matmul(Z, V), CU = matmul(U, V);
-  const c = new Float64Array(rows);
+  const raw = new Float64Array(rows), prec = new Float64Array(rows);
+  let q = 0;
   for (let i = 0; i < rows; i++) {
     let num = 0, den = 0;
     for (let m = 0; m < N; m++) {
@@ -92,9 +101,36 @@ export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z:
       num += wgt * z * CU.data[i * N + m]!;
       den += wgt * z * z;
     }
-    c[i] = den > 0 && Number.isFinite(num / den) ? num / den : 0;
+    raw[i] = den > 0 && Number.isFinite(num / den) ? num / den : 0;
+    prec[i] = den > 0 && Number.isFinite(den) ? den : 0;
+    for (let m = 0; m < N; m++) q += (CU.data[i * N + m]! - raw[i]! * CZ.data[i * N + m]!) ** 2 / (d[m]! + lambda);
   }
-  return c;
+  let shrink = fixed;
+  if (!shrink) {
+    const tau2 = q / Math.max(1, rows * N);
+    const v = Float64Array.from(prec, (p) => (p > 0 ? tau2 / p : Infinity));
+    let s2 = 0, cbar = 0;
+    const wts = new Float64Array(rows);
+    for (let it = 0; it < 50; it++) {
+      let sw = 0, sc = 0;
+      for (let i = 0; i < rows; i++) { wts[i] = Number.isFinite(v[i]!) ? 1 / (s2 + v[i]!) : 0; sw += wts[i]!; sc += wts[i]! * raw[i]!; }
+      cbar = sw > 0 ? sc / sw : 0;
+      // moment equation Σ w_i [(c_i − c̄)² − v_i] = 0 for s², solved by fixed-point steps
+      let num = 0, den = 0;
+      for (let i = 0; i < rows; i++) if (wts[i]! > 0) { num += wts[i]! * ((raw[i]! - cbar) ** 2 - v[i]!); den += wts[i]!; }
+      const next = Math.max(0, s2 + num / Math.max(den, 1e-300));
+      if (Math.abs(next - s2) <= 1e-10 * (next + 1e-300)) { s2 = next; break; }
+      s2 = next;
+    }
+    const b = Float64Array.from(v, (vi) => (Number.isFinite(vi) ? (s2 + vi > 0 ? s2 / (s2 + vi) : 1) : 0));
+    let sw = 0;
+    for (let i = 0; i < rows; i++) sw += wts[i]!;
+    shrink = { b, wts: Float64Array.from(wts, (w) => (sw > 0 ? w / sw : 0)) };
+  }
+  let cbar = 0;
+  for (let i = 0; i < rows; i++) cbar += shrink.wts[i]! * raw[i]!;
+  const c = Float64Array.from(raw, (ci, i) => cbar + shrink!.b[i]! * (ci - cbar));
+  return { c, shrink };
 }
 
 /** U − diag(c) Z (rows × N). */
