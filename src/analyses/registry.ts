@@ -19,13 +19,13 @@ export const analyses: Analysis<unknown>[] = [
   selfAdjoint as Analysis<unknown>,
   transport as Analysis<unknown>, // after self_adjoint
   order as Analysis<unknown>,
-  translation as Analysis<unknown>,
   locality as Analysis<unknown>, // after order (shares its spectrum)
   oscillation as Analysis<unknown>, // after order and transport
   screening as Analysis<unknown>,
   coupling as Analysis<unknown>,
   singularities as Analysis<unknown>,
   interfacesAnalysis as Analysis<unknown>,
+  translation as Analysis<unknown>, // after interfaces
   operatorAnalysis as Analysis<unknown>, // after order, self_adjoint and interfaces; before regions
   regions as Analysis<unknown>, // after interfaces, operator, order, locality
 ];

@@ -356,8 +356,21 @@ export function jumpProfileTest(G: Mat, view: SquareView, reps: Mat[]): JumpProf
   };
 }
 
+/**
+ * Probability that the interfaces analysis (when it ran) found a sharp change of a coefficient:
+ * the largest existence probability of a listed interface. A sharp change of the meaningful size
+ * is itself a non-uniform medium, whatever the offset test says.
+ */
+function interfaceEvidence(ctx: Context): { p: number; at: number[] } {
+  const out = ctx.results['interfaces']?.finding as { location: unknown; existence?: unknown; confidence: number }[] | undefined;
+  if (!Array.isArray(out) || !out.length) return { p: 0, at: [] };
+  const ps = out.map((i) => (typeof i.existence === 'number' ? i.existence : i.confidence)).filter(Number.isFinite);
+  return { p: ps.length ? Math.max(...ps) : 0, at: out.map((i) => i.location).filter((v): v is number => typeof v === 'number') };
+}
+
 export const translation: Analysis<F> = {
   key: 'translation_invariant',
+  dependsOn: ['interfaces'],
   run(kernel: Kernel, ctx: Context): AnalysisOutput<F> {
     const explanation =
       'In a uniform medium the response depends only on the offset x − s between source and observation point, apart from a smooth correction of low rank that the boundaries add. ' +
@@ -389,9 +402,11 @@ export const translation: Analysis<F> = {
     // stiffness) is estimator bias or immaterial: it does not veto (our materiality rule)
     if (dj?.decision === 'present' && jt!.variation < 0.1 * jt!.yardstick) dj = { decision: 'inconclusive', confidence: 0.5, z: dj.z };
     let verdict: YesNo, confidence: number;
-    if (d.decision === 'present' || dj?.decision === 'present') {
+    const ie = interfaceEvidence(ctx);
+    const byInterface = ie.p >= 0.5;
+    if (d.decision === 'present' || dj?.decision === 'present' || byInterface) {
       verdict = 'no';
-      confidence = Math.max(d.decision === 'present' ? d.confidence : 0, dj?.decision === 'present' ? dj.confidence : 0);
+      confidence = Math.max(d.decision === 'present' ? d.confidence : 0, dj?.decision === 'present' ? dj.confidence : 0, byInterface ? ie.p : 0);
     } else if (d.decision === 'absent') {
       // the block test's yardstick already covers a graded stiffness; the jump test may only veto
       verdict = 'yes';
@@ -430,7 +445,8 @@ export const translation: Analysis<F> = {
         statistic: sig(test.defect),
         noise_floor: sig(test.floor),
         summary: `Part of the shifted-block difference beyond rank ${test.rank} (what an offset-plus-low-rank kernel cannot explain) ${test.defect.toPrecision(3)} against a noise floor of ${Number.isFinite(test.floor) ? test.floor.toPrecision(2) : 'unknown'} (a factor-2 graded medium: ${Number.isFinite(res) ? res.toPrecision(2) : '?'}).` + jtxt + ' ' +
-          (verdict === 'yes' ? 'Consistent with a uniform medium.' : verdict === 'no' ? `The medium is not uniform${change_points.length ? ` (changes near ${change_points.join(', ')})` : ''}.` : 'The data do not decide.') + iso,
+          (verdict === 'yes' ? 'Consistent with a uniform medium.' : verdict === 'no' ? `The medium is not uniform${change_points.length ? ` (changes near ${change_points.join(', ')})` : ''}.` : 'The data do not decide.') +
+          (byInterface ? ` A sharp change of a coefficient was located (interfaces at ${ie.at.map((v) => v.toFixed(3)).join(', ')}; probability ${ie.p.toFixed(2)}), which by itself makes the medium non-uniform.` : '') + iso,
         explanation,
         plot: { kind: 'heatmap+profile', title: 'residual of the uniform-medium model', ...downsampleResidual(test.residual), slope_jump: profile ? { s: profile.s.map((v) => sig(v, 4)), jump: profile.jump.map((v) => sig(v, 4)), sd: profile.sd.map((v) => sig(v, 3)) } : null },
       },

@@ -52,3 +52,23 @@ describe('translation_invariant', () => {
     expect(f.verdict).toBe('inconclusive');
   });
 });
+
+describe('a located interface is evidence of a non-uniform medium', () => {
+  it('−(a u′)′ with a = 1 | 10 at 0.4: the verdict is no once the interfaces analysis has run', async () => {
+    const { interfacesAnalysis } = await import('../../src/analyses/interfaces.js');
+    const { translation } = await import('../../src/analyses/translation.js');
+    const { piecewise } = await import('../helpers/closedForms.js');
+    const { modalKernel } = await import('./anaB_helpers.js');
+    const { Rng } = await import('../../src/linalg/rng.js');
+    // entry (e) of shared/references: piecewise a, closed form (Stakgold & Holst construction, from memory)
+    const m = modalKernel(piecewise(1, 10, 0.4), { rel: 0.01, reps: 8, seed: 5 });
+    const noise = { replicates: m.replicates, homogeneousReplicates: [], source: 'bootstrap' as const, assumption: 'test' };
+    const results: Record<string, any> = {};
+    results['interfaces'] = interfacesAnalysis.run(m.kernel, { noise, rng: new Rng(1), options: {}, results });
+    const found = results['interfaces'].finding as { location: number }[];
+    expect(found.length).toBe(1);
+    const t = translation.run(m.kernel, { noise, rng: new Rng(2), options: {}, results });
+    expect(t.finding.verdict).toBe('no');
+    expect(t.finding.confidence).toBeGreaterThanOrEqual(0.5);
+  });
+});
