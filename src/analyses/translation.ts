@@ -125,10 +125,14 @@ export function invarianceTest(kernel: Kernel, view: SquareView, reps: Mat[], op
   for (const p of pairs) {
     const wI = Float64Array.from(p.I, (i) => Math.sqrt(view.w[i]! ));
     const wJ = Float64Array.from(p.J, (i) => Math.sqrt(view.w[i]!));
+    const q = p.I.length;
+    const wIJ = Float64Array.from({ length: q }, (_, a) => Math.sqrt(wI[a]! * wJ[a]!));
     const diff = (M: Mat) => {
-      const A = pick(M, p.J), B = pick(M, p.I);
-      const D = zeros(A.rows, A.cols);
-      for (let a = 0; a < A.rows; a++) for (let b = 0; b < A.cols; b++) D.data[a * A.cols + b] = Math.sqrt(wI[a]! * wJ[a]! * wI[b]! * wJ[b]!) * (A.data[a * A.cols + b]! - B.data[a * A.cols + b]!);
+      const D = zeros(q, q);
+      for (let a = 0; a < q; a++) {
+        const rJ = p.J[a]! * M.cols, rI = p.I[a]! * M.cols, wa = wIJ[a]!;
+        for (let b = 0; b < q; b++) D.data[a * q + b] = wa * wIJ[b]! * (M.data[rJ + p.J[b]!]! - M.data[rI + p.I[b]!]!);
+      }
       return D;
     };
     const D = diff(G);
@@ -137,7 +141,7 @@ export function invarianceTest(kernel: Kernel, view: SquareView, reps: Mat[], op
     num += frob2(R);
     const B = pick(G, p.I);
     for (let a = 0; a < B.rows; a++) for (let b = 0; b < B.cols; b++) den += wI[a]! * wJ[a]! * wI[b]! * wJ[b]! * B.data[a * B.cols + b]! ** 2;
-    if (devs.length) fl += devs.reduce((s, d) => s + frob2(projectOut(diff(d), sv.U, sv.V)), 0) / devs.length;
+    if (devs.length) fl += devs.reduce((s, d) => s + projectedNorm2(diff(d), sv.U, sv.V), 0) / devs.length;
     if (!resid) resid = R;
   }
   const out: InvarianceTest = { defect: Math.sqrt(num / den), floor: devs.length ? Math.sqrt(fl / den) : NaN, rank, shift: pairs.map((p) => p.shift).flat(), residual: resid! };
@@ -149,6 +153,27 @@ export function invarianceTest(kernel: Kernel, view: SquareView, reps: Mat[], op
     out.isoFloor = devs.length ? Math.sqrt(devs.reduce((s, d) => s + isoStat(d), 0) / devs.length / g2) : NaN;
   }
   return out;
+}
+
+/**
+ * ‖(I − U Uᵀ) D (I − V Vᵀ)‖²_F = ‖D‖² − ‖UᵀD‖² − ‖D V‖² + ‖UᵀD V‖² for orthonormal U, V
+ * (Pythagoras for the orthogonal projections), without forming the residual. Used for noise
+ * deviations, whose residual is most of their norm (no cancellation).
+ */
+function projectedNorm2(D: Mat, U: Mat, V: Mat): number {
+  const m = D.rows, q = D.cols, r = U.cols, rv = V.cols;
+  const UtD = new Float64Array(r * q), DV = new Float64Array(m * rv);
+  for (let i = 0; i < m; i++) {
+    const row = i * q;
+    for (let k = 0; k < r; k++) { const u = U.data[i * r + k]!; if (u === 0) continue; for (let j = 0; j < q; j++) UtD[k * q + j] += u * D.data[row + j]!; }
+    for (let j = 0; j < q; j++) { const v = D.data[row + j]!; for (let k = 0; k < rv; k++) DV[i * rv + k] += v * V.data[j * rv + k]!; }
+  }
+  let pd = 0;
+  for (let k = 0; k < r; k++) for (let k2 = 0; k2 < rv; k2++) { let t = 0; for (let j = 0; j < q; j++) t += UtD[k * q + j]! * V.data[j * rv + k2]!; pd += t * t; }
+  let u2 = 0, v2 = 0;
+  for (let i = 0; i < UtD.length; i++) u2 += UtD[i]! ** 2;
+  for (let i = 0; i < DV.length; i++) v2 += DV[i]! ** 2;
+  return Math.max(0, frob2(D) - u2 - v2 + pd);
 }
 
 function frob2(M: Mat): number {
@@ -194,6 +219,12 @@ function lsq(X: number[][], Y: number[]): number[] | null {
   const p = X[0]!.length;
   const A = Array.from({ length: p }, () => new Float64Array(p)), b = new Float64Array(p);
   for (let r = 0; r < X.length; r++) for (let i = 0; i < p; i++) { b[i] += X[r]![i]! * Y[r]!; for (let k = 0; k < p; k++) A[i]![k] += X[r]![i]! * X[r]![k]!; }
+  return solveDense(A, b);
+}
+
+/** Gaussian elimination with partial pivoting (overwrites A and b); null when singular */
+function solveDense(A: Float64Array[], b: Float64Array): number[] | null {
+  const p = b.length;
   // Gaussian elimination
   for (let c = 0; c < p; c++) {
     let piv = c;
@@ -286,15 +317,39 @@ export function jointSlopeJump(G: Mat, x: ArrayLike<number>, halfWidth?: number)
   const L = x[n - 1]! - x[0]!, h = L / (n - 1);
   const w = halfWidth ?? Math.max(8 * h, 0.08 * L);
   const s: number[] = [], jump: number[] = [], idx: number[] = [];
+  const row = (u: number) => { const a = Math.abs(u); return [1, u, u * u, u * u * u, u ** 4, a, a * u, a * u * u, a * u * u * u]; };
+  // on uniform points every full window has the same design: the least-squares coefficient b_0
+  // is one fixed linear filter of the column (e₆ᵀ(XᵀX)⁻¹Xᵀ), computed once
+  let filter: { lo: number; w: Float64Array } | null = null;
+  if (uniformSpacing(x)) {
+    const ks: number[] = [];
+    for (let k = -n; k <= n; k++) if (Math.abs((k * h) / w) <= 1 + 1e-12) ks.push(k);
+    const X = ks.map((k) => row((k * h) / w));
+    if (X.length >= 14) {
+      // the filter is X (XᵀX)⁻¹ e₆
+      const A = Array.from({ length: 9 }, (_, i) => Float64Array.from({ length: 9 }, (_, k) => X.reduce((t, r) => t + r[i]! * r[k]!, 0)));
+      const e = solveDense(A, Float64Array.from({ length: 9 }, (_, i) => (i === 5 ? 1 : 0)));
+      if (e) filter = { lo: ks[0]!, w: Float64Array.from(X, (r) => r.reduce((t, v, i) => t + v * e[i]!, 0)) };
+    }
+  }
   for (let j = 0; j < n; j++) {
     const sj = x[j]!;
     if (sj - w < x[0]! - 1e-12 || sj + w > x[n - 1]! + 1e-12) continue;
+    if (filter) {
+      let cnt = 0;
+      for (let i = 0; i < n; i++) if (Math.abs((x[i]! - sj) / w) <= 1 + 1e-12) cnt++;
+      if (cnt === filter.w.length && j + filter.lo >= 0 && j + filter.lo + cnt <= n) {
+        let b0 = 0;
+        for (let q = 0; q < cnt; q++) b0 += filter.w[q]! * G.data[(j + filter.lo + q) * G.cols + j]!;
+        s.push(sj); jump.push(2 * b0 / w); idx.push(j);
+        continue;
+      }
+    }
     const X: number[][] = [], Y: number[] = [];
     for (let i = 0; i < n; i++) {
       const u = (x[i]! - sj) / w;
       if (Math.abs(u) > 1 + 1e-12) continue;
-      const a = Math.abs(u);
-      X.push([1, u, u * u, u * u * u, u ** 4, a, a * u, a * u * u, a * u * u * u]);
+      X.push(row(u));
       Y.push(G.data[i * G.cols + j]!);
     }
     if (X.length < 14) continue;
