@@ -121,6 +121,12 @@ export const cases: Case[] = [
     name: 'cubic-nonlinear', family: 'nonlinear', spec: 'a=1; cubic=30', amplitudes: [0.2, 5],
     expect: { linearity: 'nonlinear' },
   },
+  {
+    // the demo's operator (examples/conveyor-oven/scenario.json): a belt carrying heat toward +x
+    // between 0.3 and 0.7 in a uniformly conducting bar, ends held at 20 and 60
+    name: 'conveyor-belt', family: 'piecewise', spec: 'a=0.05; b=pw(0,0.3,1,0.7,0); left=dirichlet(20); right=dirichlet(60)', count: 120, lengthScale: 0.05, amplitudes: [20, 40],
+    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, interfaces: [0.3, 0.7] },
+  },
 ];
 
 export const noiseLevels = [0, 0.01, 0.1, 1.0];
