@@ -108,6 +108,11 @@ export async function run(): Promise<boolean> {
     const eK = relativeError(f.kernel.G, sim.truth.kernel.G);
     const eS = relativeError(spanRestricted(sim.truth.kernel.G, sim.study.inputs.values, w), sim.truth.kernel.G);
     check(`2-D noise ${noise}: kernel ÷ span-restricted`, eK / eS, 1.25, [eK, eS, `complete=${f.report.coverage.complete}`]);
+    // the predicted error must be honest against the full kernel (issue 3 (c)): actual ÷ predicted in [0.5, 2]
+    const pred = f.report.uncertainty.relative_kernel_error, honest = eK / pred;
+    const hyp = f.report.hyperparameters as Record<string, unknown>;
+    if (!(honest >= 0.5 && honest <= 2)) ok = false;
+    console.log(row([`2-D noise ${noise}: actual ÷ predicted kernel error`, honest, '[0.5, 2]', honest >= 0.5 && honest <= 2 ? 'met' : 'MISSED', pred, `singular ${String(hyp.singular_part)}`], W));
     // reference: the best span-confined estimator with per-direction shrinkage, given the truth's energies
     // (an oracle; test/fit/spanBound.ts), at the simulated noise σ
     const sigma = Number((sim.study.extra as { simulation: { noise_sigma: number } }).simulation.noise_sigma);

@@ -145,7 +145,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     return { form, Phi, Z: singularResponses(Phi, complete, FWc) };
   });
   if (forms.length) o.progress('span model: testing a singular part on the diagonal (logarithmic, with images, r² ln r) jointly with the prior');
-  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null; shrink?: Shrinkage } | null = null;
+  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null; shrink?: Shrinkage; eig?: { vectors: Mat; values: Float64Array } } | null = null;
   const tried: string[] = [];
   for (const prior of priors) {
     const KWF = priorTimes(prep, prior, FWc, Kcache);
@@ -158,7 +158,19 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
       const { c, shrink } = singularCoefficients(sol.V, sol.d, sol.lambda, f.Z, Uc);
       const solS = gcvRows(A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length, eig);
       tried.push(`${prior.name}+${f.form}=${solS.gcv.toPrecision(4)}`);
-      if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c, shrink };
+      if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c, shrink, eig };
+    }
+  }
+  if (best!.form && best!.c && best!.shrink) {
+    // the GLS coefficients are pulled toward the part of the remainder that resembles Φ; their common
+    // level is refined as a hyper-parameter by GCV (c_i + δ, δ on a grid over ±50 % of the median)
+    const b = best!, f = b.form!, med = Array.from(b.c!).sort((x, y) => x - y)[b.c!.length >> 1]!;
+    for (let k = -10; k <= 10; k++) {
+      if (k === 0) continue;
+      const shrink = { ...b.shrink!, offset: (k / 20) * Math.abs(med) };
+      const { c } = singularCoefficients(b.sol.V, b.sol.d, b.sol.lambda, f.Z, Uc, shrink);
+      const solS = gcvRows(b.A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length + 1, b.eig);
+      if (solS.gcv < best!.sol.gcv) best = { ...b, sol: solS, c, shrink };
     }
   }
   const singular = best!.form && best!.c && best!.shrink ? { form: best!.form.form, Phi: best!.form.Phi, Z: best!.form.Z, c: best!.c, shrink: best!.shrink } : null;

@@ -78,7 +78,7 @@ export function singularResponses(Phi: Mat, rows: number[], FWc: Mat): Mat {
 }
 
 /** Shrinkage of the per-sensor coefficients toward their precision-weighted mean: c̄ and b_i. */
-export interface Shrinkage { b: Float64Array; wts: Float64Array }
+export interface Shrinkage { b: Float64Array; wts: Float64Array; /** added to every coefficient (chosen by GCV) */ offset?: number }
 
 /**
  * GLS coefficients c_i (flat prior) given the eigen-decomposition A = V diag(d) Vᵀ and λ:
@@ -129,7 +129,8 @@ export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z:
   }
   let cbar = 0;
   for (let i = 0; i < rows; i++) cbar += shrink.wts[i]! * raw[i]!;
-  const c = Float64Array.from(raw, (ci, i) => cbar + shrink!.b[i]! * (ci - cbar));
+  const off = shrink.offset ?? 0;
+  const c = Float64Array.from(raw, (ci, i) => cbar + off + shrink!.b[i]! * (ci - cbar));
   return { c, shrink };
 }
 
