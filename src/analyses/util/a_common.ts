@@ -298,6 +298,57 @@ export interface TopSvd { U: Mat; s: Float64Array; V: Mat; exact: boolean }
  */
 // One-sided Jacobi SVD: Hestenes, J. SIAM 6 (1958); Demmel & Veselić, SIAM J. Matrix Anal. Appl. 13 (1992).
 export function jacobiSvdRows(B: Mat): TopSvd {
+  if (B.cols > 2 * B.rows) return qrJacobiSvdRows(B);
+  return plainJacobiSvdRows(B);
+}
+
+/**
+ * The same SVD for a wide B (l × n, n > 2l): Householder QR of Bᵀ = QR first, then Jacobi on the
+ * l × l factor Rᵀ (rows of length l instead of n, and faster convergence); V = Q·V_R.
+ */
+// QR preconditioning of one-sided Jacobi: Drmač & Veselić, SIAM J. Matrix Anal. Appl. 29 (2008).
+function qrJacobiSvdRows(B: Mat): TopSvd {
+  const l = B.rows, n = B.cols;
+  const X = Float64Array.from(B.data); // row k of B = column k of Bᵀ
+  const beta = new Float64Array(l);
+  const R = zeros(l, l); // holds Rᵀ (lower triangular), row i = column i of R
+  for (let k = 0; k < l; k++) {
+    const ok = k * n;
+    let nrm = 0;
+    for (let t = k; t < n; t++) nrm += X[ok + t]! * X[ok + t]!;
+    nrm = Math.sqrt(nrm);
+    const alpha = X[ok + k]! > 0 ? -nrm : nrm;
+    // reflector v (stored in place of column k, from entry k on), H = I − β v vᵀ
+    X[ok + k] = X[ok + k]! - alpha;
+    let vv = 0;
+    for (let t = k; t < n; t++) vv += X[ok + t]! * X[ok + t]!;
+    beta[k] = vv > 0 ? 2 / vv : 0;
+    for (let j = k + 1; j < l; j++) {
+      const oj = j * n;
+      let d = 0;
+      for (let t = k; t < n; t++) d += X[ok + t]! * X[oj + t]!;
+      const f = beta[k]! * d;
+      if (f !== 0) for (let t = k; t < n; t++) X[oj + t] -= f * X[ok + t]!;
+    }
+    R.data[k * l + k] = alpha;
+    for (let j = k + 1; j < l; j++) R.data[j * l + k] = X[j * n + k]!;
+  }
+  const d = plainJacobiSvdRows(R); // Rᵀ = U Σ V_Rᵀ, so B = Rᵀ Qᵀ = U Σ (Q V_R)ᵀ
+  const V = zeros(n, l);
+  for (let i = 0; i < l; i++) for (let c = 0; c < l; c++) V.data[i * l + c] = d.V.data[i * l + c]!;
+  // V ← H_0 H_1 ⋯ H_{l−1} V: apply the reflectors in reverse order
+  const col = new Float64Array(n);
+  for (let k = l - 1; k >= 0; k--) {
+    const ok = k * n, bk = beta[k]!;
+    if (bk === 0) continue;
+    col.fill(0);
+    for (let t = k; t < n; t++) { const v = X[ok + t]!; if (v === 0) continue; const vo = t * l; for (let c = 0; c < l; c++) col[c] += v * V.data[vo + c]!; }
+    for (let t = k; t < n; t++) { const v = bk * X[ok + t]!; if (v === 0) continue; const vo = t * l; for (let c = 0; c < l; c++) V.data[vo + c] -= v * col[c]!; }
+  }
+  return { U: d.U, s: d.s, V, exact: true };
+}
+
+function plainJacobiSvdRows(B: Mat): TopSvd {
   const l = B.rows, n = B.cols;
   const X = Float64Array.from(B.data);
   const R = new Float64Array(l * l);
