@@ -23,6 +23,7 @@ import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, matmulTN } from '../linalg/dense.js';
 import type { Prepared } from './prepare.js';
 import { legendreBasis } from './basis.js';
+import { cholesky } from '../linalg/decomp.js';
 import { type NormalSystem, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
 
 export type Constraint = 'none' | 'symmetric' | 'translation';
@@ -490,26 +491,106 @@ export function kinkCandidates(Kmax: number): number[] {
 }
 
 /**
- * Choose (K, penalty order, λ) for one output component by GCV. Sizes are tried in increasing order
- * and the search stops once GCV has risen for two sizes in a row (common practice for nested models).
+ * A resumable GCV search over nested basis sizes for one output component and penalty order. Sizes are
+ * tried in increasing order and the search stops once GCV has risen for two sizes in a row (common practice
+ * for nested models); an alternative basis that is behind a reference at two sizes in a row is abandoned
+ * (same rule). `advanceKinkSearch(s, upTo)` evaluates sizes ≤ upTo only, so a caller can defer the largest
+ * (costliest) sizes and resume later with the same outcome as an uninterrupted search.
  */
+export interface KinkSearch {
+  sys: NormalSystem;
+  Kmax: number;
+  cIn: number;
+  constraint: Constraint;
+  order: number;
+  degree?: Float64Array;
+  sizes: number[];
+  behind?: (K: number, gcv: number) => boolean;
+  /** index in `sizes` of the next size to evaluate */
+  next: number;
+  rises: number;
+  prev: number;
+  lagging: number;
+  done: boolean;
+  best: KinkChoice | null;
+  tried: KinkChoice['tried'];
+}
+
+export function startKinkSearch(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, order: number, degree: Float64Array | undefined, sizes: number[], behind?: (K: number, gcv: number) => boolean, tried: KinkChoice['tried'] = []): KinkSearch {
+  return { sys, Kmax, cIn, constraint, order, degree, sizes, behind, next: 0, rises: 0, prev: Infinity, lagging: 0, done: sizes.length === 0, best: null, tried };
+}
+
+export function advanceKinkSearch(st: KinkSearch, upTo = Infinity): void {
+  const Pfull = penaltyWeights(st.Kmax, st.cIn, st.order, 1, st.degree);
+  while (!st.done && st.sizes[st.next]! <= upTo) {
+    const K = st.sizes[st.next++]!;
+    const map = st.constraint === 'symmetric' ? symmetricMap(st.Kmax, K) : unconstrainedMap(st.Kmax, st.cIn, K);
+    const red = reduceSystem(st.sys, Pfull, map);
+    const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
+    st.tried.push({ K, order: st.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof });
+    if (!st.best || g.gcv < st.best.gcv.gcv) st.best = { K, order: st.order, gcv: g, tried: st.tried };
+    if (st.next >= st.sizes.length) st.done = true;
+    if (g.gcv >= st.prev) { if (++st.rises >= 2) st.done = true; } else st.rises = 0;
+    st.prev = g.gcv;
+    if (st.behind) { if (st.behind(K, g.gcv)) { if (++st.lagging >= 2) st.done = true; } else st.lagging = 0; }
+  }
+}
+
+/** Size of the reduced parameter vector at basis size K. */
+export function reducedSize(Kmax: number, cIn: number, K: number, constraint: Constraint): number {
+  return constraint === 'symmetric' ? K * K : 2 * K * K * cIn;
+}
+
+/**
+ * A lower bound on the GCV score of every size not yet tried by a search, at every λ: the nested tensor
+ * model's residual at any λ is at least the unpenalised residual of the largest model containing it, and
+ * that is at least the sum over sensors of each sensor's own unconstrained least-squares residual at Kmax
+ * (a tensor model's row θ_i = Σ_a φ_a(x_i) Θ_a is one candidate of that sensor's problem), `rowBound`;
+ * the effective parameters are at most the reduced size p_K, so GCV ≥ n · rowBound / (n − p_K)² at the
+ * smallest remaining size (the bound grows with p_K). Infinity when nothing remains; 0 when no bound holds.
+ */
+export function remainingGcvBound(st: KinkSearch, rowBound: number): number {
+  if (st.done) return Infinity;
+  const pK = reducedSize(st.Kmax, st.cIn, st.sizes[st.next]!, st.constraint), n = st.sys.nObs;
+  return n > pK ? (n * rowBound) / ((n - pK) * (n - pK)) : 0;
+}
+
+/**
+ * A lower bound on Σ_i min_θ ‖ỹ_i − X̃_i θ‖² over the sensors of output component p (each sensor's centred
+ * data and its own unconstrained least squares in the Kmax features), from the stored per-sensor Grams. A
+ * sensor whose Gram is not numerically positive definite (at the ends of the interval the sign features
+ * are ±Z, collinear with the plain ones) contributes 0, which keeps the sum a lower bound.
+ */
+export function rowwiseResidual(setup: KinkSetup, prep: Prepared, p: number): number {
+  const { F } = setup;
+  let total = 0;
+  const w = new Float64Array(F);
+  for (let i = 0; i < prep.nOut; i++) {
+    const c = p * prep.nOut + i;
+    const L = cholesky({ rows: F, cols: F, data: setup.rowQ.slice(c * F * F, (c + 1) * F * F) });
+    if (!L) continue;
+    // ‖L⁻¹ r‖² = rᵀ Q⁻¹ r by forward substitution
+    const r = setup.rowR;
+    let fit = 0;
+    for (let a = 0; a < F; a++) {
+      let t = r[c * F + a]!;
+      for (let b = 0; b < a; b++) t -= L.data[a * F + b]! * w[b]!;
+      w[a] = t / L.data[a * F + a]!;
+      fit += w[a]! * w[a]!;
+    }
+    total += Math.max(0, setup.rowYY[c]! - fit);
+  }
+  return total;
+}
+
+/** Choose (K, penalty order, λ) for one output component by GCV (a complete `KinkSearch` per order). */
 export function chooseKink(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, orders: number[], degree?: Float64Array, sizes = kinkCandidates(Kmax), jumps = [0.1, 10], behind?: (K: number, gcv: number) => boolean): KinkChoice {
   const tried: KinkChoice['tried'] = [];
   let best: KinkChoice | null = null;
   for (const order of orders) {
-    const Pfull = penaltyWeights(Kmax, cIn, order, 1, degree);
-    let rises = 0, prev = Infinity, lagging = 0;
-    for (const K of sizes) {
-      const map = constraint === 'symmetric' ? symmetricMap(Kmax, K) : unconstrainedMap(Kmax, cIn, K);
-      const red = reduceSystem(sys, Pfull, map);
-      const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
-      tried.push({ K, order, gcv: g.gcv, lambda: g.lambda, dof: g.dof });
-      if (!best || g.gcv < best.gcv.gcv) best = { K, order, gcv: g, tried };
-      if (g.gcv >= prev) { if (++rises >= 2) break; } else rises = 0;
-      prev = g.gcv;
-      // an alternative basis that is behind a reference at two sizes in a row is abandoned (same rule)
-      if (behind) { if (behind(K, g.gcv)) { if (++lagging >= 2) break; } else lagging = 0; }
-    }
+    const st = startKinkSearch(sys, Kmax, cIn, constraint, order, degree, sizes, behind, tried);
+    advanceKinkSearch(st);
+    if (st.best && (!best || st.best.gcv.gcv < best.gcv.gcv)) best = st.best;
   }
   return chooseJump(sys, Kmax, cIn, constraint, best!, degree, jumps);
 }

@@ -12,7 +12,8 @@ import { zeros } from '../linalg/dense.js';
 import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
-  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, setupKink, assembleFull, chooseKink, chooseJump, solveKink, kernelRows,
+  type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, type KinkSearch, setupKink, assembleFull, chooseJump, solveKink, kernelRows,
+  startKinkSearch, advanceKinkSearch, remainingGcvBound, rowwiseResidual,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
   symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
 } from './kink1d.js';
@@ -57,6 +58,11 @@ function solveAtChosenSize(setup: KinkSetup, prep: Prepared, p: number, f: KinkF
 
 /** Size of the models compared when screening a frequency (the oscillatory pair and 4 polynomials). */
 const SCAN_SIZE = 6;
+/**
+ * Largest plain-basis size searched before the oscillatory family is tried: the larger plain sizes (p = 2K² up
+ * to 392 unknowns, most of the search's cost) are searched afterwards only if the plain family can still win.
+ */
+const EAGER_PLAIN_SIZE = 10;
 /** Candidate frequencies (local maxima of the pilot's energy fraction) screened by GCV. */
 const PILOT_CANDIDATES = 3;
 
@@ -185,10 +191,16 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     constraint = 'none';
   }
   o.progress(`1-D diagonal-kink model: per-sensor Gram matrices (basis up to ${Kf})`);
-  const fitBasis = (b: KinkBasis, sizes: number[], reference?: KinkChoice[]) => {
+  interface Family { basis: KinkBasis; setup: KinkSetup; searches: KinkSearch[]; systems: NormalSystem[]; fits: KinkFit[]; choices: KinkChoice[]; score: number }
+  const settle = (fam: Omit<Family, 'fits' | 'choices' | 'score'>, old?: Family): Family => {
+    const choices = fam.searches.map((st) => st.best!);
+    const fits = choices.map((c, p) => (old && old.choices[p] === c ? old.fits[p]! : solveKink(fam.systems[p]!, Kf, prep.cIn, c, constraint, fam.basis.degree)));
+    const score = choices.reduce((acc, c, p) => acc + c.gcv.gcv * fam.systems[p]!.nObs, 0);
+    return { ...fam, fits, choices, score };
+  };
+  const fitBasis = (b: KinkBasis, sizes: number[], reference?: KinkChoice[], upTo = Infinity): Family => {
     const st = setupKink(prep, b, sets);
-    const fs: KinkFit[] = [], cs: KinkChoice[] = [], ss: NormalSystem[] = [];
-    let score = 0;
+    const searches: KinkSearch[] = [], ss: NormalSystem[] = [];
     for (let p = 0; p < prep.cOut; p++) {
       const sys = assembleFull(st, prep, p, Kf);
       ss.push(sys);
@@ -196,38 +208,59 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       // the jump factor is chosen for the winning basis only (below): the bases are compared at factor 1
       const ref = reference?.[p];
       const behind = ref ? (K: number, g: number) => { if (K <= SCAN_SIZE) return false; const t = ref.tried.find((q) => q.K === K && q.jump === undefined); return t !== undefined && g > t.gcv; } : undefined;
-      const choice = chooseKink(sys, Kf, prep.cIn, constraint, [PENALTY_ORDER], b.degree, sizes, [], behind);
-      fs.push(solveKink(sys, Kf, prep.cIn, choice, constraint, b.degree));
-      cs.push(choice);
-      score += choice.gcv.gcv * sys.nObs;
+      const search = startKinkSearch(sys, Kf, prep.cIn, constraint, PENALTY_ORDER, b.degree, sizes, behind);
+      advanceKinkSearch(search, upTo);
+      searches.push(search);
     }
-    return { basis: b, setup: st, fits: fs, choices: cs, systems: ss, score };
+    return settle({ basis: b, setup: st, searches, systems: ss });
   };
-  let chosen = fitBasis(legendreKinkBasis(prep, Kf), kinkCandidates(Kf));
+  /** the deferred sizes of a family's searches (outcome as if searched at once) */
+  const resume = (fam: Family): Family => {
+    if (fam.searches.every((st) => st.done)) return fam;
+    for (const st of fam.searches) advanceKinkSearch(st);
+    return settle(fam, fam);
+  };
+  const canEnrich = Kf >= 8 && prep.box[0]![1] > prep.box[0]![0];
+  // with the oscillatory family in play, the plain sizes above EAGER_PLAIN_SIZE are searched only if the plain
+  // family can still win: first the enriched family's score, then a lower bound on the deferred sizes' GCV
+  let plain = fitBasis(legendreKinkBasis(prep, Kf), kinkCandidates(Kf), undefined, canEnrich ? EAGER_PLAIN_SIZE : Infinity);
+  let chosen = plain;
   // oscillatory enrichment: frequency by a GCV scan at a small size; the enriched basis replaces the plain
   // one only when it beats it at that size and again at its own GCV-chosen size
-  const plainScore = chosen.score;
   let oscillatory: { omega: number; small: number; plainSmall: number; full: number | null } | null = null;
-  if (Kf >= 8 && prep.box[0]![1] > prep.box[0]![0]) {
+  let deferredSkipped = false;
+  if (canEnrich) {
     let scan = { omega: NaN, score: Infinity };
     const pilot = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn);
-    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, chosen.setup, chosen.fits[p]!.theta, p, pilot, chosen.fits[p]!.K);
+    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, plain.setup, plain.fits[p]!.theta, p, pilot, plain.fits[p]!.K);
     for (const w of pilotFrequencies(prep, pilot, PILOT_CANDIDATES)) {
       const v = oscillatoryScore(prep, sets, constraint, SCAN_SIZE, w);
       if (v < scan.score) scan = { omega: w, score: v };
     }
-    const plainSmall = chosen.choices.reduce((acc, c, p) => {
+    const plainSmall = plain.choices.reduce((acc, c, p) => {
       const t = c.tried.find((q) => q.K === SCAN_SIZE && q.jump === undefined);
-      return acc + (t ? t.gcv : Infinity) * chosen.systems[p]!.nObs;
+      return acc + (t ? t.gcv : Infinity) * plain.systems[p]!.nObs;
     }, 0);
     oscillatory = { omega: scan.omega, small: scan.score, plainSmall, full: null };
     if (Number.isFinite(scan.omega) && scan.score < plainSmall) {
       o.progress(`oscillatory basis, ω = ${scan.omega.toPrecision(4)}: full GCV search`);
-      const enriched = fitBasis(oscillatoryKinkBasis(prep, Kf, scan.omega), [2, ...kinkCandidates(Kf)], chosen.choices);
+      const enriched = fitBasis(oscillatoryKinkBasis(prep, Kf, scan.omega), [2, ...kinkCandidates(Kf)], plain.choices);
       oscillatory.full = enriched.score;
-      if (enriched.score < chosen.score) chosen = enriched;
-    }
+      if (enriched.score < plain.score) {
+        // the plain family's final score is at least Σ_p n_p · min(best so far, bound on the deferred sizes)
+        let plainLower = 0;
+        plain.searches.forEach((st, p) => {
+          const rb = st.done ? 0 : rowwiseResidual(plain.setup, prep, p);
+          plainLower += Math.min(st.best!.gcv.gcv, remainingGcvBound(st, rb)) * plain.systems[p]!.nObs;
+        });
+        deferredSkipped = plainLower > enriched.score && plain.searches.some((st) => !st.done);
+        if (!deferredSkipped) plain = resume(plain);
+        if (enriched.score < plain.score) chosen = enriched;
+        else chosen = plain;
+      } else chosen = plain = resume(plain);
+    } else chosen = plain = resume(plain);
   }
+  const plainScore = plain.score;
   const { basis, setup, systems } = chosen;
   const choices = chosen.choices.map((c, p) => chooseJump(systems[p]!, Kf, prep.cIn, constraint, c, basis.degree));
   const fits = choices.map((c, p) => (c === chosen.choices[p] ? chosen.fits[p]! : solveKink(systems[p]!, Kf, prep.cIn, c, constraint, basis.degree)));
@@ -422,6 +455,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   if (oscillatory) {
     hyper.oscillatory_frequency_scanned = oscillatory.omega;
     hyper.oscillatory_gcv_ratio = (oscillatory.full ?? NaN) / plainScore;
+    // the plain sizes above EAGER_PLAIN_SIZE were not searched: their GCV lower bound exceeded the enriched score
+    hyper.plain_sizes_bounded = deferredSkipped;
   }
   fits.forEach((f, p) => {
     const sfx = prep.cOut > 1 ? `_${p + 1}` : '';
