@@ -6,8 +6,10 @@
  *     g_i = K W F̃ᵀ (F̃ W K W F̃ᵀ + λ I)⁻¹ ũ_i.
  * The prior K is chosen by GCV (Golub, Heath & Wahba 1979) among the white prior K = W⁻¹ (which gives
  * the minimum-norm kernel, G restricted to the forcings' span) and squared-exponential and
- * Matérn-5/2 covariances with length scales of 1, 2 and 4 point spacings; λ by GCV for each.
- * The kernel is confined to what the forcings identify and is reported as a restricted kernel.
+ * Matérn-5/2 covariances with length scales of 1, 2, 4 and 8 point spacings; λ by GCV for each. For scalar
+ * 2-D studies the choice is joint with a singular part c_i Φ(x_i, s) on the diagonal (spanSingular.ts),
+ * which the kernel holds also outside the forcings' span. The error is predicted from the bootstrap and
+ * from the prior's posterior spread (posteriorSpread). The kernel is reported as a restricted kernel.
  */
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, matmulNT } from '../linalg/dense.js';
@@ -20,10 +22,10 @@ import type { Constraint } from './kink1d.js';
 import { type CoreFit, scalingTest, responseSize } from './core.js';
 import { singularKernel, singularResponses, singularCoefficients, subtractSingular, type SingularForm, type Shrinkage } from './spanSingular.js';
 
-export interface Prior { name: string; kind: 'white' | Covariance; lengthScale: number }
+interface Prior { name: string; kind: 'white' | Covariance; lengthScale: number }
 
 /** K W F̃ᵀ for the prior (nIn·cIn × N), with F̃W given (N × nIn·cIn). */
-export function priorTimes(prep: Prepared, prior: Prior, FWc: Mat, Kcache: Map<string, Mat>): Mat {
+function priorTimes(prep: Prepared, prior: Prior, FWc: Mat, Kcache: Map<string, Mat>): Mat {
   const n = prep.nIn, cIn = prep.cIn, N = FWc.rows;
   const out = zeros(n * cIn, N);
   if (prior.kind === 'white') {
@@ -46,7 +48,7 @@ export function priorTimes(prep: Prepared, prior: Prior, FWc: Mat, Kcache: Map<s
   return out;
 }
 
-export function centred(prep: Prepared, J: number[]): Mat {
+function centred(prep: Prepared, J: number[]): Mat {
   const cols = prep.nIn * prep.cIn;
   const out = zeros(J.length, cols);
   for (let c = 0; c < cols; c++) {
@@ -69,7 +71,7 @@ interface SpanSolve {
 }
 
 /** GCV over λ for complete rows Ũ (rows × N) given A = F̃ W K W F̃ᵀ. */
-export function gcvRows(A: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0, eig?: { vectors: Mat; values: Float64Array }): SpanSolve {
+function gcvRows(A: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0, eig?: { vectors: Mat; values: Float64Array }): SpanSolve {
   const N = A.rows, rows = Uc.rows;
   const e = eig ?? eigSym(A);
   const d = Float64Array.from(e.values, (v) => Math.max(v, 0));
