@@ -19,7 +19,7 @@ import { normalCdf } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, transpose } from '../linalg/dense.js';
-import { colocated, replicates, sig, round3, domainLength, std } from './util/a_common.js';
+import { colocated, replicates, sig, round3, domainLength, std, takeColsOf } from './util/a_common.js';
 import { kernelSpectrum, projectedDeviations } from './order.js';
 
 type F = Findings['locality'];
@@ -41,16 +41,10 @@ function outOfBand(U: Mat, V: Mat, c: Float64Array, far: Uint8Array, C?: Float64
       if (C) for (let l = 0; l < K; l++) VM.data[i * K + l] -= v * C[k * K + l]! * c[l]!;
     }
   }
-  const B = matmul(VM, transpose(U.cols === K ? U : takeCols(U, K)));
+  const B = matmul(VM, transpose(U.cols === K ? U : takeColsOf(U, K)));
   let tot = 0, out = 0;
   for (let q = 0; q < n * n; q++) { const e = B.data[q]! * B.data[q]!; tot += e; if (far[q]) out += e; }
   return tot > 0 ? out / tot : NaN;
-}
-
-function takeCols(M: Mat, K: number): Mat {
-  const o = zeros(M.rows, K);
-  for (let i = 0; i < M.rows; i++) for (let k = 0; k < K; k++) o.data[i * K + k] = M.data[i * M.cols + k]!;
-  return o;
 }
 
 /** Sine modes of the Dirichlet Laplacian on the points' box, √w-weighted, ordered by eigenvalue. */
@@ -112,7 +106,7 @@ export const locality: Analysis<F> = {
       wTot += ww; if (f) wFar += ww;
     }
     const h = hann(K);
-    const U = takeCols(sp.svd.U, K), V = takeCols(sp.svd.V, K);
+    const U = takeColsOf(sp.svd.U, K), V = takeColsOf(sp.svd.V, K);
     const c = Float64Array.from({ length: K }, (_, k) => h[k]! / sp.s[k]!);
     const share = outOfBand(U, V, c, far);
     const cRef = Float64Array.from({ length: K }, (_, k) => h[k]! * ref.lam[k]!);

@@ -21,7 +21,7 @@ import { normalCdf, clamp01 } from './analysis.js';
 import type { Findings, Kernel } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul } from '../linalg/dense.js';
-import { replicates, deviations, weightsOut, sqrtWeighted, topSvd, analysisRng, spectralNorm, decide, sig, round3, median, std, colocated, slopeJumpFunctionals, applyJumpFunctionals, type TopSvd } from './util/a_common.js';
+import { replicates, deviations, weightsOut, sqrtWeighted, topSvd, analysisRng, spectralNorm, decide, sig, round3, median, std, colocated, EQUIVALENCE_Z, slopeJumpFunctionals, applyJumpFunctionals, type TopSvd } from './util/a_common.js';
 
 type F = Findings['order'];
 
@@ -188,13 +188,21 @@ export const order: Analysis<F> = {
     const K = sp.trusted;
     const lo = Math.max(1, Math.ceil(K / 3)), hi = K;
     const fit = decayFit(sp.s, lo, hi);
-    const expReps = fit ? sp.perturbed.map((p) => decayFit(p, lo, hi)?.exponent ?? NaN).filter(Number.isFinite) : [];
+    const repFits = fit ? sp.perturbed.map((p) => decayFit(p, lo, hi)) : [];
+    const expReps = repFits.map((f) => f?.exponent ?? NaN).filter(Number.isFinite);
     const expSd = expReps.length >= 3 ? std(expReps) : NaN;
     // Weyl line of evidence: P(order 2) from the exponent's side of the boundary at 3/d
     let pWeyl2 = 0.5;
     let decay: 'power' | 'exponential' | 'undetermined' = 'undetermined';
     if (fit && K >= 6) {
-      decay = fit.ssExp < 0.5 * fit.ssPower ? 'exponential' : fit.ssPower < 0.5 * fit.ssExp ? 'power' : 'undetermined';
+      // the law that fits clearly better (residuals at least 2× smaller), and stays so across the
+      // replicates' spectra: D = ln(ss_power/ss_exp) beyond ±ln 2 by its one-sided 95 % margin (as in
+      // `decide`); over a short range of k the two laws are hard to tell apart and noise can flip them
+      const D = Math.log(fit.ssPower / fit.ssExp);
+      const Dr = repFits.map((f) => (f ? Math.log(f.ssPower / f.ssExp) : NaN)).filter(Number.isFinite);
+      const sdD = Dr.length >= 3 && Number.isFinite(D) ? std(Dr) : 0;
+      decay = fit.ssExp < 0.5 * fit.ssPower && !(D - EQUIVALENCE_Z * sdD <= Math.LN2) ? 'exponential'
+        : fit.ssPower < 0.5 * fit.ssExp && !(D + EQUIVALENCE_Z * sdD >= -Math.LN2) ? 'power' : 'undetermined';
       const od = fit.exponent * d;
       const spread = Math.sqrt((d * (Number.isFinite(expSd) ? expSd : 0)) ** 2 + 0.5 ** 2);
       pWeyl2 = clamp01(normalCdf((3 - od) / spread));

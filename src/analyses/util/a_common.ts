@@ -412,7 +412,8 @@ export function topSvd(A: Mat, k: number, rng: Rng, power = 3): TopSvd {
   return { U: takeColsOf(matmul(Q, d.U), kk), s: Float64Array.from(d.s.subarray(0, kk)), V: takeColsOf(d.V, kk), exact: false };
 }
 
-function takeColsOf(M: Mat, k: number): Mat {
+/** The first k columns of M (M itself when it has k). */
+export function takeColsOf(M: Mat, k: number): Mat {
   if (M.cols === k) return M;
   const out = zeros(M.rows, k);
   for (let i = 0; i < M.rows; i++) for (let j = 0; j < k; j++) out.data[i * k + j] = M.data[i * M.cols + j]!;
