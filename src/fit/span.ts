@@ -165,14 +165,22 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
   }
   if (best!.form && best!.c && best!.shrink) {
     // the GLS coefficients are pulled toward the part of the remainder that resembles Φ; their common
-    // level is refined as a hyper-parameter by GCV (c_i + δ, δ on a grid over ±50 % of the median)
-    const b = best!, f = b.form!, med = Array.from(b.c!).sort((x, y) => x - y)[b.c!.length >> 1]!;
-    for (let k = -10; k <= 10; k++) {
-      if (k === 0) continue;
-      const shrink = { ...b.shrink!, offset: (k / 20) * Math.abs(med) };
-      const { c } = singularCoefficients(b.sol.V, b.sol.d, b.sol.lambda, f.Z, Uc, shrink);
-      const solS = gcvRows(b.A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length + 1, b.eig);
-      if (solS.gcv < best!.sol.gcv) best = { ...b, sol: solS, c, shrink };
+    // level is refined as a hyper-parameter by GCV (c_i + δ, δ on a grid of ±50 % of the median, moved
+    // until the minimum is inside the grid: a 1-D GCV minimisation)
+    const b = best!, f = b.form!, med = Math.abs(Array.from(b.c!).sort((x, y) => x - y)[b.c!.length >> 1]!);
+    let centre = 0;
+    for (let round = 0; round < 6; round++) {
+      let moved = false;
+      for (let k = -10; k <= 10; k++) {
+        const offset = centre + (k / 20) * med;
+        if (offset === (best!.shrink?.offset ?? 0)) continue;
+        const shrink = { ...b.shrink!, offset };
+        const { c } = singularCoefficients(b.sol.V, b.sol.d, b.sol.lambda, f.Z, Uc, shrink);
+        const solS = gcvRows(b.A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length + 1, b.eig);
+        if (solS.gcv < best!.sol.gcv) { best = { ...b, sol: solS, c, shrink }; moved = Math.abs(k) === 10; }
+      }
+      if (!moved) break;
+      centre = best!.shrink!.offset ?? 0;
     }
   }
   const singular = best!.form && best!.c && best!.shrink ? { form: best!.form.form, Phi: best!.form.Phi, Z: best!.form.Z, c: best!.c, shrink: best!.shrink } : null;
