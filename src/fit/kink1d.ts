@@ -24,7 +24,7 @@ import { zeros, matmul, matmulTN } from '../linalg/dense.js';
 import type { Prepared } from './prepare.js';
 import { legendreBasis } from './basis.js';
 import { cholesky } from '../linalg/decomp.js';
-import { type NormalSystem, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
+import { type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
 
 export type Constraint = 'none' | 'symmetric' | 'translation';
 
@@ -514,10 +514,12 @@ export interface KinkSearch {
   done: boolean;
   best: KinkChoice | null;
   tried: KinkChoice['tried'];
+  /** the tried sizes' spectra with their tridiagonal reductions (for replicates that re-choose the size) */
+  spectra: Map<number, RidgeSpectrum>;
 }
 
 export function startKinkSearch(sys: NormalSystem, Kmax: number, cIn: number, constraint: Constraint, order: number, degree: Float64Array | undefined, sizes: number[], behind?: (K: number, gcv: number) => boolean, tried: KinkChoice['tried'] = []): KinkSearch {
-  return { sys, Kmax, cIn, constraint, order, degree, sizes, behind, next: 0, rises: 0, prev: Infinity, lagging: 0, done: sizes.length === 0, best: null, tried };
+  return { sys, Kmax, cIn, constraint, order, degree, sizes, behind, next: 0, rises: 0, prev: Infinity, lagging: 0, done: sizes.length === 0, best: null, tried, spectra: new Map() };
 }
 
 export function advanceKinkSearch(st: KinkSearch, upTo = Infinity): void {
@@ -526,7 +528,9 @@ export function advanceKinkSearch(st: KinkSearch, upTo = Infinity): void {
     const K = st.sizes[st.next++]!;
     const map = st.constraint === 'symmetric' ? symmetricMap(st.Kmax, K) : unconstrainedMap(st.Kmax, st.cIn, K);
     const red = reduceSystem(st.sys, Pfull, map);
-    const g = gcvMinimise(ridgeSpectrum(red.sys, red.P));
+    const sp = ridgeSpectrum(red.sys, red.P, true);
+    st.spectra.set(K, sp);
+    const g = gcvMinimise(sp);
     st.tried.push({ K, order: st.order, gcv: g.gcv, lambda: g.lambda, dof: g.dof });
     if (!st.best || g.gcv < st.best.gcv.gcv) st.best = { K, order: st.order, gcv: g, tried: st.tried };
     if (st.next >= st.sizes.length) st.done = true;

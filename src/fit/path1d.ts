@@ -13,11 +13,11 @@ import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
   type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, type KinkSearch, setupKink, assembleFull, chooseJump, solveKink, kernelRows,
-  startKinkSearch, advanceKinkSearch, remainingGcvBound, rowwiseResidual,
+  type ParamMap, startKinkSearch, advanceKinkSearch, remainingGcvBound, rowwiseResidual,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
   symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
 } from './kink1d.js';
-import { RidgeSolver, type NormalSystem, ridgeSpectrum, gcvMinimise } from './spectral.js';
+import { RidgeSolver, type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, gcvAt } from './spectral.js';
 import { fitPathTranslation } from './translation1d.js';
 import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
 
@@ -172,6 +172,104 @@ export function semidefiniteCholesky(A: Mat): { L: Float64Array; perm: Int32Arra
   return { L, perm, rank };
 }
 
+/** χ²_k draw: 2 × Gamma(k/2) by Marsaglia & Tsang, ACM Trans. Math. Softw. 26 (2000) 363–372 (shape < 1 boosted by u^{1/a}). */
+export function chiSquare(rng: Rng, k: number): number {
+  if (!(k > 0)) return 0;
+  let a = k / 2, boost = 1;
+  if (a < 1) { boost = Math.pow(rng.uniform(), 1 / a); a += 1; }
+  const d = a - 1 / 3, c = 1 / Math.sqrt(9 * d);
+  for (;;) {
+    const x = rng.normal(), v0 = 1 + c * x;
+    if (v0 <= 0) continue;
+    const v = v0 * v0 * v0, u = rng.uniform();
+    if (u > 0 && Math.log(u) < 0.5 * x * x + d - d * v + d * Math.log(v)) return 2 * d * v * boost;
+  }
+}
+
+/**
+ * Bootstrap replicates that carry the model-selection variance. Replicate data are y* = X θ̂ + ε, ε iid N(0, σ²)
+ * on the measured entries (parametric bootstrap: Efron & Tibshirani 1993, ch. 6), and each replicate chooses,
+ * like the fit did, the basis size among the chosen one and its tried neighbours (next smaller and larger) and
+ * λ by GCV, then refits (so the spread holds the variance, the shrinkage bias and the selection's variability;
+ * replicates of a fit with frozen hyper-parameters miss the last: Efron, JASA 2014, "Estimation and accuracy
+ * after model selection"). Nothing is recomputed from the data: with the nested sizes' reduced systems being
+ * sub-blocks of the largest one, Xᵀε at every size is one draw z ~ N(0, σ² M_top) (z = σ L ξ, M_top = L Lᵀ by
+ * pivoted semidefinite Cholesky), ‖ε‖² = σ²(‖ξ‖² + χ²_{n − rank}) (projection on the largest model's columns
+ * and its orthogonal complement), so y*ᵀy* = θ̂ᵀMθ̂ + 2θ̂ᵀz + ‖ε‖², and each size's GCV curve and solve come
+ * from the tridiagonal reduction kept from the size search (Tridiagonal in spectral.ts).
+ */
+function selectionReplicates(search: KinkSearch, sys: NormalSystem, f: KinkFit, choice: KinkChoice, constraint: Constraint, Kf: number, cIn: number, degree: Float64Array, sigma: number, R: number, rng: Rng): { theta: Float64Array; K: number }[] {
+  const P0 = sys.r.length;
+  const sizes = [...new Set(choice.tried.filter((t) => t.jump === undefined && t.order === f.order).map((t) => t.K))].sort((x, y) => x - y);
+  const at = sizes.indexOf(f.K);
+  const cand = at < 0 ? [f.K] : [sizes[at - 1], f.K, sizes[at + 1]].filter((k): k is number => k !== undefined);
+  const Pfull = penaltyWeights(Kf, cIn, f.order, f.jump, degree);
+  const mapOf = (K: number) => (constraint === 'symmetric' ? symmetricMap(Kf, K) : unconstrainedMap(Kf, cIn, K));
+  const Ktop = Math.max(...cand), mapTop = mapOf(Ktop);
+  // θ index → η index at the top size (each θ entry belongs to at most one η)
+  const etaTop = new Int32Array(P0).fill(-1);
+  for (let u = 0; u < mapTop.theta.length; u++) etaTop[mapTop.theta[u]!] = mapTop.eta[u]!;
+  const redTop = reduceSystem(sys, Pfull, mapTop);
+  const { L, perm, rank } = semidefiniteCholesky(redTop.sys.M);
+  const nT = mapTop.size;
+  // Mθ̂ in the full layout and θ̂ᵀMθ̂
+  const g = new Float64Array(P0);
+  let yyHat = 0;
+  for (let a = 0; a < P0; a++) { const ta = f.theta[a]!; if (ta === 0) continue; const o = a * P0; for (let b = 0; b < P0; b++) g[b] += sys.M.data[o + b]! * ta; }
+  for (let a = 0; a < P0; a++) yyHat += f.theta[a]! * g[a]!;
+  // η index at size K → η index at the top size
+  const selOf = (map: ParamMap): Int32Array => { const sel = new Int32Array(map.size); for (let u = 0; u < map.theta.length; u++) sel[map.eta[u]!] = etaTop[map.theta[u]!]!; return sel; };
+  const selFit = selOf(f.map);
+  const zs: Float64Array[] = [], yys = new Float64Array(R);
+  for (let r = 0; r < R; r++) {
+    const xi = new Float64Array(rank), z = new Float64Array(nT);
+    let xx = 0;
+    for (let v = 0; v < rank; v++) { xi[v] = rng.normal(); xx += xi[v]! * xi[v]!; }
+    for (let u = 0; u < nT; u++) { let acc = 0; const lo = u * nT, top = Math.min(u, rank - 1); for (let v = 0; v <= top; v++) acc += L[lo + v]! * xi[v]!; z[perm[u]!] = sigma * acc; }
+    let tz = 0;
+    for (let e = 0; e < selFit.length; e++) tz += f.eta[e]! * z[selFit[e]!]!;
+    yys[r] = yyHat + 2 * tz + sigma * sigma * (xx + chiSquare(rng, sys.nObs - rank));
+    zs.push(z);
+  }
+  // per candidate size: each replicate's right-hand side, its GCV optimum, and what is needed to solve there
+  const best: { gcv: number; K: number; lambda: number; b: Float64Array; sp: RidgeSpectrum; map: ParamMap }[] = Array.from({ length: R }, () => ({ gcv: Infinity, K: f.K, lambda: f.lambda, b: new Float64Array(0), sp: null as unknown as RidgeSpectrum, map: f.map }));
+  const own: (typeof best[0] & { tol: number } | undefined)[] = new Array(R);
+  for (const K of cand) {
+    const map = mapOf(K);
+    const reuse = f.jump === 1 && f.order === search.order ? search.spectra.get(K) : undefined;
+    const sp = reuse ?? (() => { const red = reduceSystem(sys, Pfull, map); return ridgeSpectrum(red.sys, red.P, true); })();
+    if (!sp.tri || !sp.isqrtP) continue;
+    const base = reduceVec(map, g), n = map.size, sel = selOf(map);
+    const bs = zs.map((z) => { const v = new Float64Array(n); for (let e = 0; e < n; e++) v[e] = (base[e]! + z[sel[e]!]!) * sp.isqrtP![e]!; return sp.tri!.toTridiagonal(v); });
+    const eig = sp.tri.eigenBatch(bs);
+    if (!eig) continue;
+    for (let r = 0; r < R; r++) {
+      const spr = { mu: eig.values, c: eig.coords[r]!, yy: yys[r]!, nObs: sys.nObs };
+      const pt = gcvMinimise(spr);
+      if (pt.gcv < best[r]!.gcv) best[r] = { gcv: pt.gcv, K, lambda: pt.lambda, b: bs[r]!, sp, map };
+      if (K === f.K) {
+        // the fit's own (K, λ̂) is kept unless another choice is lower by more than the rounding of RSS = y*ᵀy* − fit
+        // (p·ε·y*ᵀy*, the summation bound over p spectral terms: Higham 2002 §4.2): where the data do not resolve the
+        // GCV curve above rounding (noise-free data), the optimum on that plateau would be arbitrary
+        const q = gcvAt(spr, f.lambda), den = sys.nObs - q.dof;
+        own[r] = { gcv: q.gcv, tol: den > 0 ? (sys.nObs * n * 2.2e-16 * yys[r]!) / (den * den) : 0, K, lambda: f.lambda, b: bs[r]!, sp, map };
+      }
+    }
+  }
+  own.forEach((ow, r) => { if (ow && !(best[r]!.gcv < ow.gcv - ow.tol)) best[r] = ow; });
+  return best.map((bt, r) => {
+    if (!Number.isFinite(bt.gcv)) {
+      // no reduction usable: the fixed-hyper-parameter refit
+      const rhs = reduceVec(f.map, g);
+      for (let e = 0; e < rhs.length; e++) rhs[e] += zs[r]![selFit[e]!]!;
+      return { theta: expand(f.map, f.solver.solveVec(rhs), P0), K: f.K };
+    }
+    const x = bt.sp.tri!.fromTridiagonal(bt.sp.tri!.solveShifted(bt.b, bt.lambda));
+    for (let e = 0; e < x.length; e++) x[e] = x[e]! * bt.sp.isqrtP![e]!;
+    return { theta: expand(bt.map, x, P0), K: bt.K };
+  });
+}
+
 /** Highest ωL considered: 48 ≈ 7.6 periods over the interval. */
 const SCAN_TOP_OMEGA_L = 48;
 
@@ -282,14 +380,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   o.progress(`parametric bootstrap: ${R} replicates with fixed hyper-parameters`);
   const colsOut = prep.nOut * prep.cOut;
   const P0 = Kf * setup.F;
-  const factors = fits.map((f) => semidefiniteCholesky(f.solver.sys.M));
-  const rhsRed = Array.from({ length: R }, () => fits.map((f, p) => {
-    const n = f.map.size, { L, perm, rank } = factors[p]!, xi = new Float64Array(rank), z = new Float64Array(n);
-    for (let v = 0; v < rank; v++) xi[v] = o.rng.normal();
-    const sg = sigmaRep[p]!;
-    for (let u = 0; u < n; u++) { let acc = 0; const lo = u * n, top = Math.min(u, rank - 1); for (let v = 0; v <= top; v++) acc += L[lo + v]! * xi[v]!; z[perm[u]!] = sg * acc; }
-    return z;
-  }));
+  // each replicate re-chooses the basis size among the neighbours of the chosen one and λ by GCV (selectionReplicates)
+  const repTheta = fits.map((f, p) => selectionReplicates(chosen.searches[p]!, systems[p]!, f, choices[p]!, constraint, Kf, prep.cIn, basis.degree, sigmaRep[p]!, R, o.rng));
   const meanEps = Array.from({ length: R }, () => {
     const m = new Float64Array(colsOut);
     for (let c = 0; c < colsOut; c++) { const nJ = sets[c]!.length; m[c] = nJ > 0 ? (sigmaRep[Math.floor(c / prep.nOut)]! / Math.sqrt(nJ)) * o.rng.normal() : 0; }
@@ -344,22 +436,10 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   });
   const repG: Mat[] = [], repUh: Float64Array[] = [];
   const th = new Float64Array(F);
-  // noise-free refit of Ĝ's own data: (M + λP)⁻¹ M η̂ — the shrinkage the fit applies (bootstrap bias)
-  const shrunk = fits.map((f) => {
-    const eta = f.eta;
-    const sys = f.solver.sys, n = eta.length;
-    const Me = new Float64Array(n);
-    for (let a = 0; a < n; a++) { let s = 0; for (let b = 0; b < n; b++) s += sys.M.data[a * n + b]! * eta[b]!; Me[a] = s; }
-    return f.solver.solveVec(Me);
-  });
   for (let r = 0; r < R; r++) {
-    const tr = fits.map((f, p) => {
-      const e = f.solver.solveVec(rhsRed[r]![p]!);
-      for (let u = 0; u < e.length; u++) e[u] += shrunk[p]![u]!;
-      return expand(f.map, e, P0);
-    });
+    const tr = repTheta.map((reps) => reps[r]!.theta), trK = repTheta.map((reps) => reps[r]!.K);
     const Gr = zeros(G.rows, G.cols);
-    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr, fits[p]!.K);
+    for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr, trK[p]!);
     // model-size uncertainty: ± e_K / d1 times the difference to the next smaller size (antithetic signs,
     // so the second moment is exact), so that the replicates' spread also carries the truncation error
     for (const td of truncDirs) {
@@ -371,7 +451,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     const u = new Float64Array(colsOut);
     for (let p = 0; p < prep.cOut; p++) for (let i = 0; i < prep.nOut; i++) {
       const c = p * prep.nOut + i;
-      rowCoefficients(setup, tr[p]!, i, th, fits[p]!.K);
+      rowCoefficients(setup, tr[p]!, i, th, trK[p]!);
       let s = 0;
       for (let f = 0; f < F; f++) s += setup.xbar[c * F + f]! * th[f]!;
       u[c] = setup.ubar[c]! + meanEps[r]![c]! - s;

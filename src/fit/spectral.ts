@@ -25,6 +25,9 @@ export interface NormalSystem {
 }
 
 export interface RidgeSpectrum {
+  /** the tridiagonal reduction of M̄ and P^{-1/2}, when kept (`ridgeSpectrum(…, true)`) */
+  tri?: Tridiagonal;
+  isqrtP?: Float64Array;
   /** eigenvalues of M̄ */
   mu: Float64Array;
   /** coordinates of P^{-1/2} r in the eigenbasis */
@@ -34,7 +37,7 @@ export interface RidgeSpectrum {
 }
 
 /** Eigenvalues of a symmetric matrix and the eigen-coordinates of one vector (no eigenvectors formed). */
-export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Array; coords: Float64Array } {
+export function eigenCoordinates(Ain: Mat, v: Float64Array, keep = false): { values: Float64Array; coords: Float64Array; tri?: Tridiagonal } {
   const n = Ain.rows;
   const A = new Float64Array(Ain.data);
   const z = new Float64Array(v);
@@ -84,6 +87,7 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Ar
   if (n >= 2) { d[n - 2] = A[(n - 2) * n + n - 2]!; e[n - 2] = A[(n - 1) * n + n - 2]!; }
   d[n - 1] = A[(n - 1) * n + n - 1]!;
   e[n - 1] = 0;
+  const tri = keep ? new Tridiagonal(A, n, d.slice(), e.slice()) : undefined;
   // implicit QL with Wilkinson-type shift; rotations applied to the row vector zᵀ
   let anorm = 0;
   for (let i = 0; i < n; i++) anorm = Math.max(anorm, Math.abs(d[i]!) + Math.abs(e[i]!));
@@ -97,7 +101,7 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Ar
         if (Math.abs(e[m]!) <= 2.2e-16 * dd + floor) break;
       }
       if (m === l) break;
-      if (++iter > 300) return eigenCoordinatesDense(Ain, v);
+      if (++iter > 300) return keep ? { ...eigenCoordinatesDense(Ain, v), tri } : eigenCoordinatesDense(Ain, v);
       let g = (d[l + 1]! - d[l]!) / (2 * e[l]!);
       let r = Math.hypot(g, 1);
       g = d[m]! - d[l]! + e[l]! / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
@@ -123,7 +127,112 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array): { values: Float64Ar
       d[l] -= p; e[l] = g; e[m] = 0;
     }
   }
-  return { values: d, coords: z };
+  return { values: d, coords: z, tri };
+}
+
+/**
+ * The Householder tridiagonal form Qᵀ A Q = T of `eigenCoordinates`, kept to reuse the reduction for more
+ * vectors: Qᵀ v, Q w, solves with T + λI (a symmetric tridiagonal LDLᵀ sweep), and the eigen-coordinates of a
+ * batch of vectors (the implicit QL sweep repeated with the rotations applied to all of them at once).
+ * Householder vectors: column k of A below the diagonal (unchanged after step k), first entry x0 − s.
+ */
+export class Tridiagonal {
+  constructor(private readonly A: Float64Array, readonly n: number, readonly d: Float64Array, readonly e: Float64Array) {}
+  /** per reflection: first entry of its vector and 2/(vᵀv), or 0 for no reflection (computed once) */
+  private coef: { u1: Float64Array; beta: Float64Array } | null = null;
+  /** v ← H_k v for one reflection (symmetric), in place */
+  private reflect(k: number, v: Float64Array): void {
+    const n = this.n, A = this.A;
+    if (!this.coef) {
+      const u1 = new Float64Array(n), beta = new Float64Array(n);
+      for (let j = 0; j < n - 2; j++) {
+        let rest = 0;
+        for (let i = j + 2; i < n; i++) rest += A[i * n + j]! * A[i * n + j]!;
+        const x0 = A[(j + 1) * n + j]!;
+        if (rest + x0 * x0 === 0) continue;
+        u1[j] = x0 - this.e[j]!;
+        const vv = u1[j]! * u1[j]! + rest;
+        beta[j] = vv === 0 ? 0 : 2 / vv;
+      }
+      this.coef = { u1, beta };
+    }
+    const beta = this.coef.beta[k]!, u1 = this.coef.u1[k]!;
+    if (beta === 0) return;
+    let uz = u1 * v[k + 1]!;
+    for (let i = k + 2; i < n; i++) uz += A[i * n + k]! * v[i]!;
+    const f = beta * uz;
+    v[k + 1] -= f * u1;
+    for (let i = k + 2; i < n; i++) v[i] -= f * A[i * n + k]!;
+  }
+  /** Qᵀ v (the reflections in the order of the reduction) */
+  toTridiagonal(v: Float64Array): Float64Array {
+    const z = new Float64Array(v);
+    for (let k = 0; k < this.n - 2; k++) this.reflect(k, z);
+    return z;
+  }
+  /** Q w */
+  fromTridiagonal(w: Float64Array): Float64Array {
+    const z = new Float64Array(w);
+    for (let k = this.n - 3; k >= 0; k--) this.reflect(k, z);
+    return z;
+  }
+  /** (T + λI)⁻¹ b by the LDLᵀ recurrence of a symmetric tridiagonal matrix (positive definite for λ > 0) */
+  solveShifted(b: Float64Array, lambda: number): Float64Array {
+    const n = this.n, dd = new Float64Array(n), l = new Float64Array(n), y = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const off = i > 0 ? this.e[i - 1]! : 0;
+      dd[i] = this.d[i]! + lambda - (i > 0 ? l[i - 1]! * off : 0);
+      y[i] = b[i]! - (i > 0 ? l[i - 1]! * y[i - 1]! : 0);
+      if (i < n - 1) l[i] = this.e[i]! / dd[i]!;
+    }
+    const x = new Float64Array(n);
+    for (let i = n - 1; i >= 0; i--) x[i] = y[i]! / dd[i]! - (i < n - 1 ? l[i]! * x[i + 1]! : 0);
+    return x;
+  }
+  /** eigenvalues and the eigen-coordinates of each Qᵀ-transformed vector in `zs` (implicit QL as above) */
+  eigenBatch(zs: Float64Array[]): { values: Float64Array; coords: Float64Array[] } | null {
+    const n = this.n, m = zs.length, d = this.d.slice(), e = this.e.slice();
+    const Z = new Float64Array(n * m);
+    zs.forEach((z, j) => { for (let i = 0; i < n; i++) Z[i * m + j] = z[i]!; });
+    let anorm = 0;
+    for (let i = 0; i < n; i++) anorm = Math.max(anorm, Math.abs(d[i]!) + Math.abs(e[i]!));
+    const floor = anorm * 1e-300 + anorm * 2.2e-16 * 2.2e-16;
+    for (let l = 0; l < n; l++) {
+      let iter = 0;
+      for (;;) {
+        let mm = l;
+        for (; mm < n - 1; mm++) {
+          const dd = Math.abs(d[mm]!) + Math.abs(d[mm + 1]!);
+          if (Math.abs(e[mm]!) <= 2.2e-16 * dd + floor) break;
+        }
+        if (mm === l) break;
+        if (++iter > 300) return null;
+        let g = (d[l + 1]! - d[l]!) / (2 * e[l]!);
+        let r = Math.hypot(g, 1);
+        g = d[mm]! - d[l]! + e[l]! / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
+        let s = 1, c = 1, p = 0;
+        let underflow = false;
+        for (let i = mm - 1; i >= l; i--) {
+          const f = s * e[i]!, b = c * e[i]!;
+          r = Math.hypot(f, g);
+          e[i + 1] = r;
+          if (r === 0) { d[i + 1] -= p; e[mm] = 0; underflow = true; break; }
+          s = f / r; c = g / r;
+          g = d[i + 1]! - p;
+          r = (d[i]! - g) * s + 2 * c * b;
+          p = s * r;
+          d[i + 1] = g + p;
+          g = c * r - b;
+          const o0 = i * m, o1 = o0 + m;
+          for (let j = 0; j < m; j++) { const zf = Z[o1 + j]!, zi = Z[o0 + j]!; Z[o1 + j] = s * zi + c * zf; Z[o0 + j] = c * zi - s * zf; }
+        }
+        if (underflow) continue;
+        d[l] -= p; e[l] = g; e[mm] = 0;
+      }
+    }
+    for (let i = 0; i < n; i++) if (d[i]! < 0) d[i] = 0;
+    return { values: d, coords: zs.map((_, j) => Float64Array.from({ length: n }, (_, i) => Z[i * m + j]!)) };
+  }
 }
 
 /** Fallback when the QL sweep does not converge: full eigen-decomposition (slower, robust). */
@@ -135,7 +244,7 @@ function eigenCoordinatesDense(A: Mat, v: Float64Array): { values: Float64Array;
   return { values: Float64Array.from(e.values), coords };
 }
 
-export function ridgeSpectrum(sys: NormalSystem, P: Float64Array): RidgeSpectrum {
+export function ridgeSpectrum(sys: NormalSystem, P: Float64Array, keep = false): RidgeSpectrum {
   const p = sys.r.length;
   const Mb = new Float64Array(p * p);
   const is = new Float64Array(p);
@@ -143,9 +252,9 @@ export function ridgeSpectrum(sys: NormalSystem, P: Float64Array): RidgeSpectrum
   for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) Mb[i * p + j] = sys.M.data[i * p + j]! * is[i]! * is[j]!;
   const rb = new Float64Array(p);
   for (let i = 0; i < p; i++) rb[i] = sys.r[i]! * is[i]!;
-  const { values, coords } = eigenCoordinates({ rows: p, cols: p, data: Mb }, rb);
+  const { values, coords, tri } = eigenCoordinates({ rows: p, cols: p, data: Mb }, rb, keep);
   for (let i = 0; i < p; i++) if (values[i]! < 0) values[i] = 0;
-  return { mu: values, c: coords, yy: sys.yy, nObs: sys.nObs };
+  return keep ? { mu: values, c: coords, yy: sys.yy, nObs: sys.nObs, tri, isqrtP: is } : { mu: values, c: coords, yy: sys.yy, nObs: sys.nObs };
 }
 
 export interface GcvPoint { lambda: number; gcv: number; rss: number; dof: number }

@@ -1,0 +1,52 @@
+/**
+ * The kept tridiagonal reduction (src/fit/spectral.ts `Tridiagonal`) against closed forms for the
+ * second-difference matrix T = tridiag(−1, 2, −1) of size n, hidden by a seeded orthogonal similarity
+ * A = U T Uᵀ: eigenvalues 2 − 2cos(kπ/(n+1)) and inverse (T⁻¹)_ij = min(i,j)(n+1−max(i,j))/(n+1)
+ * (Strang, Introduction to Applied Mathematics, 1986, §1.5 — from memory; the eigenvalues also in
+ * Golub & Van Loan, Matrix Computations, 4th ed., §4.8).
+ */
+import { describe, it, expect } from 'vitest';
+import { eigenCoordinates } from '../../src/fit/spectral.js';
+import { Rng } from '../../src/linalg/rng.js';
+
+const n = 12;
+function hidden(): { A: Float64Array; U: Float64Array } {
+  // U: product of seeded Householder reflections (orthogonal)
+  const rng = new Rng(3);
+  const U = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) U[i * n + i] = 1;
+  for (let r = 0; r < 4; r++) {
+    const v = Float64Array.from({ length: n }, () => rng.normal());
+    const vv = v.reduce((s, x) => s + x * x, 0);
+    for (let i = 0; i < n; i++) { let t = 0; for (let k = 0; k < n; k++) t += U[i * n + k]! * v[k]!; for (let k = 0; k < n; k++) U[i * n + k] -= (2 * t * v[k]!) / vv; }
+  }
+  const T = (i: number, j: number) => (i === j ? 2 : Math.abs(i - j) === 1 ? -1 : 0);
+  const A = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) { let s = 0; for (let a = 0; a < n; a++) for (let b = 0; b < n; b++) s += U[i * n + a]! * T(a, b) * U[j * n + b]!; A[i * n + j] = s; }
+  return { A, U };
+}
+
+describe('Tridiagonal (kept Householder reduction)', () => {
+  const { A, U } = hidden();
+  const v0 = Float64Array.from({ length: n }, (_, i) => Math.sin(i + 1));
+  const { tri, values } = eigenCoordinates({ rows: n, cols: n, data: A }, v0, true);
+  it('eigenvalues of the batch sweep equal 2 − 2cos(kπ/(n+1)) (closed form)', () => {
+    const exact = Array.from({ length: n }, (_, k) => 2 - 2 * Math.cos(((k + 1) * Math.PI) / (n + 1))).sort((a, b) => a - b);
+    const batch = tri!.eigenBatch([tri!.toTridiagonal(v0)])!;
+    const got = Array.from(batch.values).sort((a, b) => a - b);
+    got.forEach((g, k) => expect(Math.abs(g - exact[k]!)).toBeLessThan(1e-12));
+    // same sweep as the one-vector reduction: identical eigenvalues and coordinates
+    expect(Array.from(batch.values)).toEqual(Array.from(values));
+  });
+  it('Q (T + 0·I)⁻¹ Qᵀ b equals A⁻¹ b = U T⁻¹ Uᵀ b with the closed-form inverse', () => {
+    const b = Float64Array.from({ length: n }, (_, i) => Math.cos(0.3 * i));
+    const x = tri!.fromTridiagonal(tri!.solveShifted(tri!.toTridiagonal(b), 0));
+    const Tinv = (i: number, j: number) => (Math.min(i, j) + 1) * (n - Math.max(i, j)) / (n + 1);
+    const utb = Float64Array.from({ length: n }, (_, a) => { let s = 0; for (let i = 0; i < n; i++) s += U[i * n + a]! * b[i]!; return s; });
+    for (let i = 0; i < n; i++) {
+      let s = 0;
+      for (let a = 0; a < n; a++) for (let c = 0; c < n; c++) s += U[i * n + a]! * Tinv(a, c) * utb[c]!;
+      expect(Math.abs(x[i]! - s)).toBeLessThan(1e-11);
+    }
+  });
+});
