@@ -478,7 +478,10 @@ export const translation: Analysis<F> = {
       isoConf = isotropic === 'inconclusive' ? 0.5 : di.confidence;
     }
     const change_points: Position[] = [];
-    if (verdict === 'no' && jt && jt.profile.sd.some((v) => v > 0)) for (const c of stepChangePoints(jt.profile.s, jt.profile.jump, jt.profile.sd)) change_points.push(sig(c, 4)!);
+    // where the interfaces analysis located sharp changes (exact local models, a_semisep.ts), those
+    // are the change points; otherwise the steps of the slope-jump profile
+    if (verdict === 'no' && byInterface) for (const c of ie.at) change_points.push(sig(c, 4)!);
+    else if (verdict === 'no' && jt && jt.profile.sd.some((v) => v > 0)) for (const c of stepChangePoints(jt.profile.s, jt.profile.jump, jt.profile.sd)) change_points.push(sig(c, 4)!);
     const profile = jt?.profile ?? null;
     const iso = isotropic ? ` Isotropy: ${isotropic} (quarter-turn defect ${test.isoDefect!.toPrecision(3)}).` : '';
     const jtxt = jt ? ` Slope jump across the diagonal varies by ${(100 * jt.variation).toPrecision(2)} % (floor ${(100 * jt.floor).toPrecision(2)} %, a factor-2 graded medium ${(100 * jt.resolution).toPrecision(2)} %${jUsable ? '' : '; kink not resolved, not used'}).` : '';

@@ -70,5 +70,9 @@ describe('a located interface is evidence of a non-uniform medium', () => {
     const t = translation.run(m.kernel, { noise, rng: new Rng(2), options: {}, results });
     expect(t.finding.verdict).toBe('no');
     expect(t.finding.confidence).toBeGreaterThanOrEqual(0.5);
+    // the change point is the interface of the closed form, within the 0.02
+    const cps = (t.finding as { change_points: number[] }).change_points;
+    expect(cps.length).toBe(1);
+    expect(Math.abs(cps[0]! - 0.4)).toBeLessThan(0.02);
   });
 });
