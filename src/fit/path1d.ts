@@ -243,6 +243,7 @@ function selectionReplicates(search: KinkSearch, sys: NormalSystem, f: KinkFit, 
     const bs = zs.map((z) => { const v = new Float64Array(n); for (let e = 0; e < n; e++) v[e] = (base[e]! + z[sel[e]!]!) * sp.isqrtP![e]!; return sp.tri!.toTridiagonal(v); });
     const eig = sp.tri.eigenBatch(bs);
     if (!eig) continue;
+    for (let i = 0; i < n; i++) if (eig.values[i]! < 0) eig.values[i] = 0;
     for (let r = 0; r < R; r++) {
       const spr = { mu: eig.values, c: eig.coords[r]!, yy: yys[r]!, nObs: sys.nObs };
       const pt = gcvMinimise(spr);

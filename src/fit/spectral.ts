@@ -87,47 +87,11 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array, keep = false): { val
   if (n >= 2) { d[n - 2] = A[(n - 2) * n + n - 2]!; e[n - 2] = A[(n - 1) * n + n - 2]!; }
   d[n - 1] = A[(n - 1) * n + n - 1]!;
   e[n - 1] = 0;
-  const tri = keep ? new Tridiagonal(A, n, d.slice(), e.slice()) : undefined;
-  // implicit QL with Wilkinson-type shift; rotations applied to the row vector zᵀ
-  let anorm = 0;
-  for (let i = 0; i < n; i++) anorm = Math.max(anorm, Math.abs(d[i]!) + Math.abs(e[i]!));
-  const floor = anorm * 1e-300 + anorm * 2.2e-16 * 2.2e-16;
-  for (let l = 0; l < n; l++) {
-    let iter = 0;
-    for (;;) {
-      let m = l;
-      for (; m < n - 1; m++) {
-        const dd = Math.abs(d[m]!) + Math.abs(d[m + 1]!);
-        if (Math.abs(e[m]!) <= 2.2e-16 * dd + floor) break;
-      }
-      if (m === l) break;
-      if (++iter > 300) return keep ? { ...eigenCoordinatesDense(Ain, v), tri } : eigenCoordinatesDense(Ain, v);
-      let g = (d[l + 1]! - d[l]!) / (2 * e[l]!);
-      let r = Math.hypot(g, 1);
-      g = d[m]! - d[l]! + e[l]! / (g + (g >= 0 ? Math.abs(r) : -Math.abs(r)));
-      let s = 1, c = 1, p = 0;
-      let i = m - 1;
-      let underflow = false;
-      for (; i >= l; i--) {
-        const f = s * e[i]!, b = c * e[i]!;
-        r = Math.hypot(f, g);
-        e[i + 1] = r;
-        if (r === 0) { d[i + 1] -= p; e[m] = 0; underflow = true; break; }
-        s = f / r; c = g / r;
-        g = d[i + 1]! - p;
-        r = (d[i]! - g) * s + 2 * c * b;
-        p = s * r;
-        d[i + 1] = g + p;
-        g = c * r - b;
-        const zf = z[i + 1]!;
-        z[i + 1] = s * z[i]! + c * zf;
-        z[i] = c * z[i]! - s * zf;
-      }
-      if (underflow) continue;
-      d[l] -= p; e[l] = g; e[m] = 0;
-    }
-  }
-  return { values: d, coords: z, tri };
+  // implicit QL with Wilkinson-type shift; rotations applied to the row vector zᵀ (Tridiagonal.eigenBatch)
+  const tri = new Tridiagonal(A, n, d, e);
+  const eig = tri.eigenBatch([z]);
+  if (!eig) return keep ? { ...eigenCoordinatesDense(Ain, v), tri } : eigenCoordinatesDense(Ain, v);
+  return { values: eig.values, coords: eig.coords[0]!, tri: keep ? tri : undefined };
 }
 
 /**
@@ -189,7 +153,10 @@ export class Tridiagonal {
     for (let i = n - 1; i >= 0; i--) x[i] = y[i]! / dd[i]! - (i < n - 1 ? l[i]! * x[i + 1]! : 0);
     return x;
   }
-  /** eigenvalues and the eigen-coordinates of each Qᵀ-transformed vector in `zs` (implicit QL as above) */
+  /**
+   * Eigenvalues and the eigen-coordinates of each Qᵀ-transformed vector in `zs`: implicit QL with a
+   * Wilkinson-type shift on copies of (d, e), the rotations applied to all vectors; null if it does not converge.
+   */
   eigenBatch(zs: Float64Array[]): { values: Float64Array; coords: Float64Array[] } | null {
     const n = this.n, m = zs.length, d = this.d.slice(), e = this.e.slice();
     const Z = new Float64Array(n * m);
@@ -230,7 +197,6 @@ export class Tridiagonal {
         d[l] -= p; e[l] = g; e[mm] = 0;
       }
     }
-    for (let i = 0; i < n; i++) if (d[i]! < 0) d[i] = 0;
     return { values: d, coords: zs.map((_, j) => Float64Array.from({ length: n }, (_, i) => Z[i * m + j]!)) };
   }
 }

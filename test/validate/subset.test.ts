@@ -37,8 +37,9 @@ describe('validation subset at noise 1.0', () => {
   // hyper-parameters held fixed) underestimate the kernel's error, and a localised excursion of the
   // fitted kernel puts c = −225 1.32× the band's half-width away (Student-t/bootstrap-bias bands).
   // uniform-diffusion covers with the working tree's fit (it missed by 1 % with the previous fit:
-  // a measured margin, not a safe one). `it.fails` keeps measuring: it turns red once it covers.
-  const knownMiss = new Set(['helmholtz-k15']);
+  // a measured margin, not a safe one). helmholtz-k15 covers since the fit's replicates re-choose basis size and λ
+  // (model-selection variance); its predicted kernel error on seed 1 is still 1.55 % vs 3.71 % actual, so the margin is small.
+  const knownMiss = new Set<string>([]);
   for (const c of fast.filter((x) => x.expect.coefficients)) {
     const t = knownMiss.has(c.name) ? it.fails : it;
     t(`${c.name}: coefficient bands cover the truth${knownMiss.has(c.name) ? ' (known miss)' : ''}`, () => {
