@@ -17,7 +17,7 @@ import { normalCdf } from './analysis.js';
 import type { Kernel, Findings, OperatorTerm, Domain } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { quadratureWeights, tensorAxes } from '../quadrature.js';
-import { bump1d, adjointColumn1d, solveWeak, kinkFactors1d, type Param, type TermName, type WeakBlock, type WeakSolution } from './weakform.js';
+import { bump1d, adjointColumn1d, solveWeak, solveDesigns, designMatrix, designColumns, kinkFactors1d, type Param, type TermName, type WeakBlock, type WeakSolution } from './weakform.js';
 
 // ------------------------------------------------------------------ models
 
@@ -66,41 +66,72 @@ const SHAPES = [0, 1, 2];
 /** Kink correction input: trapezoid factors per source and the diffusion coefficient a(s). */
 interface Kink { factors: Float64Array; a: (x: number) => number }
 
-/** The blocks of one bump position (one per shape) for a 1-D model. */
-function blocks1d(xOut: Float64Array, wOut: Float64Array, xIn: Float64Array, x0: number, r: number, params: Param[], order: ModelOrder, kink?: Kink): WeakBlock[] {
-  return SHAPES.map((m) => block1d(xOut, wOut, xIn, x0, r, params, order, m, kink));
-}
+/**
+ * At most this many source equations per test bump: the residuals of the weak-form equations are
+ * smooth in s, so on a fine grid neighbouring sources repeat each other's information (the
+ * residual dof already counts them as dependent) and cost time only. Beyond it every k-th source
+ * is used, weighted k-fold.
+ */
+const MAX_SOURCES = 120;
 
-function block1d(xOut: Float64Array, wOut: Float64Array, xIn: Float64Array, x0: number, r: number, params: Param[], order: ModelOrder, m: number, kink?: Kink): WeakBlock {
-  const p = order === 4 ? 10 : 6;
+function bumpPower(order: ModelOrder): number { return order === 4 ? 10 : 6; }
+
+/** Support, sources (with their quadrature weights) and right-hand sides of one bump shape. */
+interface Frame { support: Int32Array; sources: Int32Array; rhs: Float64Array; scale: number; x0: number; r: number; m: number }
+
+function frame1d(xOut: Float64Array, xIn: Float64Array, x0: number, r: number, order: ModelOrder, m: number): Frame {
+  const p = bumpPower(order);
   const sup: number[] = [];
   for (let i = 0; i < xOut.length; i++) if (Math.abs(xOut[i]! - x0) < r) sup.push(i);
-  const P = params.length;
-  const psi = new Float64Array(sup.length * P);
-  sup.forEach((i, q) => {
-    const d = bump1d(xOut[i]!, x0, r, p, 4, m);
-    for (let j = 0; j < P; j++) psi[q * P + j] = adjointColumn1d(params[j]!, xOut[i]!, x0, r, d) * wOut[i]!;
-  });
   // sources within SOURCE_REACH radii: those inside the bump carry L G = δ, the rest only the
   // two homogeneous conditions, which nearby sources already give
-  const srcs: number[] = [];
-  for (let k = 0; k < xIn.length; k++) if (Math.abs(xIn[k]! - x0) <= SOURCE_REACH * r) srcs.push(k);
+  const near: number[] = [];
+  for (let k = 0; k < xIn.length; k++) if (Math.abs(xIn[k]! - x0) <= SOURCE_REACH * r) near.push(k);
+  const stride = Math.max(1, Math.ceil(near.length / MAX_SOURCES));
+  const srcs = stride === 1 ? near : near.filter((_, q) => q % stride === Math.floor(stride / 2));
   const rhs = new Float64Array(srcs.length);
   srcs.forEach((k, q) => { rhs[q] = bump1d(xIn[k]!, x0, r, p, 0, m)[0]!; });
-  const sources = Int32Array.from(srcs);
-  if (!kink) return { support: Int32Array.from(sup), psi, sources, rhs };
+  return { support: Int32Array.from(sup), sources: Int32Array.from(srcs), rhs, scale: stride, x0, r, m };
+}
+
+/** Ψ of a frame: for each (weights, parameters) group, (L*_j φ)(x_i)·w(x_i), columns side by side. */
+function psi1d(xOut: Float64Array, f: Frame, groups: [Float64Array, Param[]][], order: ModelOrder): { psi: Float64Array; C: number } {
+  const p = bumpPower(order);
+  const C = groups.reduce((n, [, ps]) => n + ps.length, 0);
+  const psi = new Float64Array(f.support.length * C);
+  for (let q = 0; q < f.support.length; q++) {
+    const i = f.support[q]!;
+    const d = bump1d(xOut[i]!, f.x0, f.r, p, 4, f.m);
+    let c = 0;
+    for (const [w, ps] of groups) for (const par of ps) psi[q * C + c++] = adjointColumn1d(par, xOut[i]!, f.x0, f.r, d) * w[i]!;
+  }
+  return { psi, C };
+}
+
+/** Trapezoid kink correction (see kinkFactors1d) of a frame's design: sources × P. */
+function kinkRows(xOut: Float64Array, xIn: Float64Array, f: Frame, params: Param[], order: ModelOrder, kink: Kink): Float64Array {
   // ∫ G ψ = trapezoid − J h²(t(1−t)/2 − 1/12) with J = [∂xG] ψ(s) = −ψ(s)/a(s)
-  const K = new Float64Array(srcs.length * P);
-  for (let q = 0; q < srcs.length; q++) {
-    const k = srcs[q]!;
+  const p = bumpPower(order);
+  const P = params.length;
+  const K = new Float64Array(f.sources.length * P);
+  for (let q = 0; q < f.sources.length; q++) {
+    const k = f.sources[q]!;
     const s = xIn[k]!;
-    if (Math.abs(s - x0) >= r || kink.factors[k] === 0) continue;
+    if (Math.abs(s - f.x0) >= f.r || kink.factors[k] === 0) continue;
     const a = kink.a(s);
     if (!(Math.abs(a) > 0)) continue;
-    const d = bump1d(s, x0, r, p, 4, m);
-    for (let j = 0; j < P; j++) K[q * P + j] = (adjointColumn1d(params[j]!, s, x0, r, d) * kink.factors[k]!) / a;
+    const d = bump1d(s, f.x0, f.r, p, 4, f.m);
+    for (let j = 0; j < P; j++) K[q * P + j] = (adjointColumn1d(params[j]!, s, f.x0, f.r, d) * kink.factors[k]!) / a;
   }
-  return { support: Int32Array.from(sup), psi, sources, rhs, kink: K };
+  return K;
+}
+
+/** The blocks of one bump position (one per shape) for a 1-D model. */
+function blocks1d(xOut: Float64Array, wOut: Float64Array, xIn: Float64Array, x0: number, r: number, params: Param[], order: ModelOrder): WeakBlock[] {
+  return SHAPES.map((m) => {
+    const f = frame1d(xOut, xIn, x0, r, order, m);
+    return { support: f.support, sources: f.sources, rhs: f.rhs, scale: f.scale, psi: psi1d(xOut, f, [[wOut, params]], order).psi };
+  });
 }
 
 export interface ProfileOptions {
@@ -135,8 +166,11 @@ export interface ProfileResult {
   /** fraction of bumps whose corrected system was judged noise-dominated */
   unreliableFraction: number;
   corrected: boolean;
-  /** the bump sizes tried and the median relative band of the leading coefficient for each */
-  radiusScores?: { radius: number; relativeBand: number }[];
+  /**
+   * the bump sizes tried: the median relative random error of the leading coefficient at the
+   * probe positions, and whether the size passed Lepski's agreement test (see lepskiPick)
+   */
+  radiusScores?: { radius: number; relativeBand: number; agrees: boolean }[];
 }
 
 function defaultRadius(lo: number, hi: number, xOut: Float64Array): number {
@@ -266,25 +300,85 @@ export function coefficientProfiles(kernel: Kernel, replicates: Mat[], opts: Pro
   const [lo, hi] = opts.within ?? [dlo, dhi];
   const L = dhi - dlo;
   const cap = (hi - lo) / 2;
-  if (opts.radius !== undefined) return profileAt(kernel, replicates, opts, Math.min(opts.radius, cap), null);
-  // bump size: the fit's resolution and noise decide; try a few sizes on three probe positions
-  // and keep the smallest whose leading-coefficient band is within 25 % of the tightest
+  if (opts.radius !== undefined) return profileAt(kernel, replicates, opts, Math.min(opts.radius, cap));
   const floor = 5 * maxSpacing(xOut);
-  const cands = [...new Set((opts.order === 4 ? [0.18, 0.25, 0.3] : [0.12, 0.18, 0.25])
-    .map((f) => Math.min(cap, Math.max(f * L, floor))))];
-  if (cands.length === 1) return profileAt(kernel, replicates, opts, cands[0]!, null);
-  const scores = cands.map((r) => {
-    const probe = profileAt(kernel, replicates.slice(0, 10), opts, r, 3);
-    const lead = probe.terms.find((t) => t.name === (opts.order === 4 ? 'fourth-order' : 'diffusion'))!;
-    const rel = lead.value.map((v, i) => (lead.upper[i]! - lead.lower[i]!) / 2 / Math.max(Math.abs(v), 1e-300));
-    rel.sort((x, y) => x - y);
-    return rel.length ? rel[rel.length >> 1]! : Number.POSITIVE_INFINITY;
-  });
-  const best = Math.min(...scores);
-  const pick = cands.find((_, i) => scores[i]! <= 1.25 * best) ?? cands[0]!;
-  const res = profileAt(kernel, replicates, opts, pick, null);
-  res.radiusScores = cands.map((r, i) => ({ radius: r, relativeBand: scores[i]! }));
+  const cands = [...new Set((opts.order === 4 ? RADII_4 : RADII_2).map((f) => Math.min(cap, Math.max(f * L, floor))))].sort((x, y) => x - y);
+  const pick = cands.length === 1 ? { index: 0, scores: [{ relativeBand: Number.NaN, agrees: true }] } : lepskiPick(kernel, replicates.slice(0, LEPSKI_REPLICATES), opts, cands, [lo, hi]);
+  const res = profileAt(kernel, replicates, opts, cands[pick.index]!);
+  res.radiusScores = pick.scores.map((sc, i) => ({ radius: cands[i]!, ...sc }));
   return res;
+}
+
+/** Bump radii tried, as fractions of the domain length (largest first limited by the interval). */
+const RADII_2 = [0.12, 0.15, 0.19, 0.24, 0.3];
+const RADII_4 = [0.18, 0.22, 0.26, 0.3];
+/** Replicates used for the radius choice (the final profile uses all). */
+const LEPSKI_REPLICATES = 10;
+
+/**
+ * Bump radius by Lepski's rule (Lepski, Theory Probab. Appl. 35, 1991; Lepski & Spokoiny, Ann.
+ * Statist. 25, 1997): with radii r_1 < … < r_K, whose estimates lose random error and gain
+ * model (locally-linear) bias as r grows, take the largest r_k whose estimate agrees with that of
+ * every smaller radius within the random error of their difference, at common probe positions
+ * and for every term. The difference's error is its spread over the same replicate kernels plus
+ * both least-squares standard errors; the multiplier is Student's t at the Welch–Satterthwaite dof,
+ * Šidák-adjusted over the comparisons of the step (as in the bands).
+ */
+function lepskiPick(kernel: Kernel, reps: Mat[], opts: ProfileOptions, cands: number[], [lo, hi]: [number, number]): { index: number; scores: { relativeBand: number; agrees: boolean }[] } {
+  const rK = cands[cands.length - 1]!;
+  const probes = [...new Set(hi - lo - 2 * rK > 1e-9 ? [lo + rK, (lo + hi) / 2, hi - rK] : [(lo + hi) / 2])];
+  const st = setupOf(kernel, opts.order);
+  const params = modelParams(opts.order, opts.advection, true);
+  const P = params.length;
+  const idx = [...new Set(params.map((p) => p.term))].map((n) => params.findIndex((p) => p.term === n && p.degree === 0));
+  const lead = params.findIndex((p) => p.term === (opts.order === 4 ? 'fourth-order' : 'diffusion') && p.degree === 0);
+  const sols = cands.map((r) => probes.map((x0) => solveWeak(kernel.G, reps, blocks1d(st.xOut, st.wOut, st.xIn, x0, r, params, opts.order), st.wIn, P)));
+  const scores = sols.map((row) => {
+    const rel = row.map((q) => (Math.sqrt(q.sd[lead]! ** 2 + q.se[lead]! ** 2)) / Math.max(Math.abs(q.theta[lead]!), 1e-300)).sort((x, y) => x - y);
+    return { relativeBand: rel[rel.length >> 1]!, agrees: true };
+  });
+  let index = 0;
+  for (let k = 1; k < cands.length; k++) {
+    const m = k * probes.length * idx.length;
+    let ok = true;
+    for (let j = 0; j < k && ok; j++) {
+      for (let p = 0; p < probes.length && ok; p++) {
+        const A = sols[k]![p]!, B = sols[j]![p]!;
+        for (const i of idx) {
+          const d = A.theta[i]! - B.theta[i]!;
+          if (!Number.isFinite(d)) { ok = false; break; }
+          // replicate spread of the difference (same replicate kernels, so correlation counts)
+          const ds: number[] = [];
+          A.aligned.forEach((a, q) => { const b = B.aligned[q]; if (a && b && Number.isFinite(a[i]! - b[i]!)) ds.push(a[i]! - b[i]!); });
+          let vs = 0;
+          if (ds.length >= 2) { const mu = ds.reduce((x, y) => x + y, 0) / ds.length; for (const v of ds) vs += (v - mu) ** 2; vs /= ds.length - 1; }
+          const ve = A.se[i]! ** 2 + B.se[i]! ** 2;
+          const dofE = Math.min(A.dof, B.dof);
+          const den = (ds.length >= 2 ? (vs * vs) / (ds.length - 1) : 0) + (ve * ve) / dofE;
+          const nu = den > 0 ? (vs + ve) ** 2 / den : Number.POSITIVE_INFINITY;
+          if (Math.abs(d) > simultaneousT(m, nu) * Math.sqrt(vs + ve)) { ok = false; break; }
+        }
+      }
+    }
+    if (!ok) { scores[k]!.agrees = false; break; }
+    index = k;
+  }
+  for (let k = index + 1; k < cands.length; k++) scores[k]!.agrees = false;
+  return { index, scores };
+}
+
+/** Per-kernel quantities every bump of a 1-D profile shares. */
+interface Setup { xOut: Float64Array; xIn: Float64Array; wOut: Float64Array; wIn: Float64Array; wEven: Float64Array; wOdd: Float64Array; factors: Float64Array | null }
+const setups = new WeakMap<Kernel, Setup>();
+function setupOf(kernel: Kernel, order: ModelOrder): Setup {
+  let st = setups.get(kernel);
+  if (!st) {
+    const xOut = kernel.pointsOut.data;
+    const [wEven, wOdd] = coarseWeights1d(xOut);
+    st = { xOut, xIn: kernel.pointsIn.data, wOut: quadratureWeights(kernel.pointsOut, kernel.domain), wIn: kernel.weightsIn, wEven, wOdd, factors: kinkFactors1d(Float64Array.from(xOut).sort(), kernel.pointsIn.data) };
+    setups.set(kernel, st);
+  }
+  return order === 2 ? st : { ...st, factors: null };
 }
 
 /** One piece of a piecewise profile: its interval and bump radius. */
@@ -327,45 +421,51 @@ export function piecewiseProfiles(kernel: Kernel, replicates: Mat[], opts: Profi
   return merged;
 }
 
-function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: number, probes: number | null): ProfileResult {
-  const xOut = kernel.pointsOut.data, xIn = kernel.pointsIn.data;
-  const wOut = quadratureWeights(kernel.pointsOut, kernel.domain);
-  const wIn = kernel.weightsIn;
+function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: number): ProfileResult {
+  const st = setupOf(kernel, opts.order);
+  const { xOut, xIn, wOut, wIn, wEven, wOdd, factors } = st;
   const [dlo, dhi] = interval(kernel.domain, kernel.pointsOut);
   const [lo, hi] = opts.within ?? [dlo, dhi];
   const r2 = SHRINK * r;
   const params = modelParams(opts.order, opts.advection, true);
   const P = params.length;
   const span = hi - lo - 2 * r;
-  const nC = probes ?? (span > 0 ? Math.max(1, Math.floor(span / (r / 2)) + 1) : 1);
+  const nC = span > 0 ? Math.max(1, Math.floor(span / (r / 2)) + 1) : 1;
   const centers = Array.from({ length: nC }, (_, i) => (nC === 1 ? (lo + hi) / 2 : lo + r + (Math.max(span, 0) * i) / (nC - 1)));
   const names = [...new Set(params.map((p) => p.term))];
   const terms: TermProfile[] = names.map((n) => ({ name: n, form: FORMS[n], x: [], value: [], lower: [], upper: [], sd: [], se: [], sensitivity: [] }));
   const residuals: number[] = [];
   let unreliable = 0, corrected = false;
-  const factors = opts.order === 2 ? kinkFactors1d(Float64Array.from(xOut).sort(), xIn) : null;
-  const [wEven, wOdd] = coarseWeights1d(xOut);
   const ia0 = params.findIndex((p) => p.term === 'diffusion' && p.degree === 0);
   const ia1 = params.findIndex((p) => p.term === 'diffusion' && p.degree === 1);
   const mSim = Math.round((hi - lo) / (2 * r));
   const paramsQ: Param[] = [...params, { term: opts.order === 4 ? 'fourth-order' : 'diffusion', degree: 2 }];
+  // one design pass over the kernel for the main fit, the quadratic-coefficient fit and the two
+  // coarse quadrature rules: columns [paramsQ · w | params · w_even | params · w_odd]
+  const C = 3 * P + 1;
+  const groups: [Float64Array, Param[]][] = [[wOut, paramsQ], [wEven, params], [wOdd, params]];
   for (const x0 of centers) {
-    const s1 = solveWeak(kernel.G, replicates, blocks1d(xOut, wOut, xIn, x0, r, params, opts.order), wIn, P);
+    const frames = SHAPES.map((m) => frame1d(xOut, xIn, x0, r, opts.order, m));
+    const psis = frames.map((f) => psi1d(xOut, f, groups, opts.order).psi);
+    const MG = frames.map((f, b) => designMatrix(kernel.G, { support: f.support, sources: f.sources, rhs: f.rhs, psi: psis[b]! }, C));
+    const blocksP: WeakBlock[] = frames.map((f, b) => ({ support: f.support, sources: f.sources, rhs: f.rhs, scale: f.scale, psi: designColumns(psis[b]!, C, 0, P) }));
+    const cols = (from: number, n: number) => MG.map((M) => designColumns(M, C, from, n));
+    const s1 = solveDesigns(cols(0, P), replicates.map((R) => blocksP.map((b) => designMatrix(R, b, P))), blocksP, wIn, P);
     const s2 = solveWeak(kernel.G, [], blocks1d(xOut, wOut, xIn, x0, r2, params, opts.order), wIn, P);
-    const q0 = solveWeak(kernel.G, [], blocks1d(xOut, wEven, xIn, x0, r, params, opts.order), wIn, P);
-    const q1 = solveWeak(kernel.G, [], blocks1d(xOut, wOdd, xIn, x0, r, params, opts.order), wIn, P);
+    const q0 = solveDesigns(cols(P + 1, P), [], blocksP, wIn, P);
+    const q1 = solveDesigns(cols(2 * P + 1, P), [], blocksP, wIn, P);
     // model form: the same fit with a quadratic leading coefficient; where the coefficient
     // curves across the bump the lower-order terms absorb the curvature (with no r² trend that
     // the smaller bump would reveal), and this change shows it
-    const sm = solveWeak(kernel.G, [], blocks1d(xOut, wOut, xIn, x0, r, paramsQ, opts.order), wIn, P + 1);
+    const sm = solveDesigns(cols(0, P + 1), [], blocksP, wIn, P + 1);
     // the same fit with the trapezoid rule corrected for a sharp kink of G on its diagonal:
     // a fitted kernel's kink is smeared and needs no correction, an exact one does; the
     // truth lies between, so the difference joins the band
-    const sk = factors && ia0 >= 0 && Number.isFinite(s1.theta[ia0]!)
-      ? solveWeak(kernel.G, [], blocks1d(xOut, wOut, xIn, x0, r, params, opts.order, {
-        factors, a: (x) => s1.theta[ia0]! + (ia1 >= 0 ? s1.theta[ia1]! * (x - x0) / r : 0),
-      }), wIn, P)
-      : null;
+    let sk: WeakSolution | null = null;
+    if (factors && ia0 >= 0 && Number.isFinite(s1.theta[ia0]!)) {
+      const kink: Kink = { factors, a: (x) => s1.theta[ia0]! + (ia1 >= 0 ? s1.theta[ia1]! * (x - x0) / r : 0) };
+      sk = solveDesigns(MG.map((M, b) => designColumns(M, C, 0, P, kinkRows(xOut, xIn, frames[b]!, params, opts.order, kink))), [], blocksP, wIn, P);
+    }
     residuals.push(s1.residual);
     if (s1.unreliable) unreliable++;
     if (s1.corrected) corrected = true;

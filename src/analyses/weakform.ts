@@ -134,25 +134,48 @@ export interface WeakBlock {
    * the kink of G at x = s (see kinkFactors1d)
    */
   kink?: Float64Array;
+  /** multiplier of the sources' quadrature weights (k when every k-th source is used; default 1) */
+  scale?: number;
 }
 
-/** M = Σ_i G(x_i, s_k) Ψ_ij over the support, for the block's sources k: sources × P, row-major. */
+/**
+ * M = Σ_i G(x_i, s_k) Ψ_ij over the support, for the block's sources k: sources × P, row-major.
+ * `cols` (default: all of the block's) is the number of columns of `psi`; the kink correction is
+ * added when its width matches.
+ */
 export function designMatrix(G: Mat, block: WeakBlock, P: number): Float64Array {
   const nIn = G.cols;
   const src = block.sources, nS = src.length;
-  const M = block.kink ? new Float64Array(block.kink) : new Float64Array(nS * P);
   const g = G.data, psi = block.psi, sup = block.support;
+  // column-major accumulation (P × nS): the inner loop runs over contiguous sources of one row of G
+  const Mt = new Float64Array(P * nS);
+  const s0 = nS ? src[0]! : 0;
+  let contiguous = true;
+  for (let k = 1; k < nS && contiguous; k++) if (src[k] !== s0 + k) contiguous = false;
+  const row = new Float64Array(nS);
   for (let q = 0; q < sup.length; q++) {
     const gi = sup[q]! * nIn;
+    if (contiguous) { for (let k = 0; k < nS; k++) row[k] = g[gi + s0 + k]!; }
+    else { for (let k = 0; k < nS; k++) row[k] = g[gi + src[k]!]!; }
     const pq = q * P;
-    for (let k = 0; k < nS; k++) {
-      const v = g[gi + src[k]!]!;
-      if (v === 0) continue;
-      const mk = k * P;
-      for (let j = 0; j < P; j++) M[mk + j] += v * psi[pq + j]!;
+    for (let j = 0; j < P; j++) {
+      const pj = psi[pq + j]!;
+      if (pj === 0) continue;
+      const o = j * nS;
+      for (let k = 0; k < nS; k++) Mt[o + k] += row[k]! * pj;
     }
   }
+  const M = block.kink && block.kink.length === nS * P ? new Float64Array(block.kink) : new Float64Array(nS * P);
+  for (let j = 0; j < P; j++) { const o = j * nS; for (let k = 0; k < nS; k++) M[k * P + j] += Mt[o + k]!; }
   return M;
+}
+
+/** Columns `from … from + P − 1` of a sources × C row-major design, as sources × P (plus `add` if given). */
+export function designColumns(M: Float64Array, C: number, from: number, P: number, add?: Float64Array): Float64Array {
+  const nS = M.length / C;
+  const out = add ? new Float64Array(add) : new Float64Array(nS * P);
+  for (let k = 0; k < nS; k++) for (let j = 0; j < P; j++) out[k * P + j] += M[k * C + from + j]!;
+  return out;
 }
 
 export interface WeakSolution {
@@ -160,8 +183,10 @@ export interface WeakSolution {
   theta: Float64Array;
   /** standard errors from the least-squares residual */
   se: Float64Array;
-  /** parameters refitted on each replicate kernel (may be empty) */
+  /** parameters refitted on each replicate kernel (may be empty; failed refits left out) */
   replicates: Float64Array[];
+  /** the same, aligned with the replicate kernels (null where the refit failed) */
+  aligned: (Float64Array | null)[];
   /** replicate standard deviation of each parameter (zeros without replicates) */
   sd: Float64Array;
   /** replicate mean of each parameter (θ itself without replicates) */
@@ -186,9 +211,9 @@ function normalEq(Ms: Float64Array[], blocks: WeakBlock[], wIn: Float64Array, P:
   const A = new Float64Array(P * P), y = new Float64Array(P);
   let yy = 0, rows = 0;
   for (let b = 0; b < blocks.length; b++) {
-    const M = Ms[b]!, rhs = blocks[b]!.rhs, src = blocks[b]!.sources;
+    const M = Ms[b]!, rhs = blocks[b]!.rhs, src = blocks[b]!.sources, scale = blocks[b]!.scale ?? 1;
     for (let k = 0; k < src.length; k++) {
-      const w = wIn[src[k]!]!;
+      const w = scale * wIn[src[k]!]!;
       const mk = k * P;
       for (let i = 0; i < P; i++) {
         const v = w * M[mk + i]!;
@@ -240,7 +265,14 @@ function spdSolve(A: Float64Array, b: Float64Array, P: number): { x: Float64Arra
  * different terms differ by orders of magnitude).
  */
 export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: Float64Array, P: number): WeakSolution {
-  const Ms = blocks.map((b) => designMatrix(G, b, P));
+  return solveDesigns(blocks.map((b) => designMatrix(G, b, P)), replicates.map((R) => blocks.map((b) => designMatrix(R, b, P))), blocks, wIn, P);
+}
+
+/**
+ * solveWeak on design matrices already formed (`Ms` per block for the kernel, `repMs` per
+ * replicate and block), so that designs shared by several fits are formed once.
+ */
+export function solveDesigns(Ms: Float64Array[], repMs: Float64Array[][], blocks: WeakBlock[], wIn: Float64Array, P: number): WeakSolution {
   const main = normalEq(Ms, blocks, wIn, P);
   // column scaling
   const sc = new Float64Array(P);
@@ -256,15 +288,23 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
   for (let i = 0; i < P; i++) As[i * P + i] += 1e-12;
 
   // errors in variables: S = mean over replicates of (M_r − M)ᵀ Ω (M_r − M)
-  const repMs: Float64Array[][] = replicates.map((R) => blocks.map((b) => designMatrix(R, b, P)));
   let S: Float64Array | null = null;
   if (repMs.length >= 2) {
     S = new Float64Array(P * P);
     for (const Mr of repMs) {
-      const D = Mr.map((m, b) => m.map((v, i) => v - Ms[b]![i]!));
-      const ne = normalEq(D, blocks.map((b) => ({ ...b, rhs: new Float64Array(b.rhs.length) })), wIn, P);
-      for (let i = 0; i < P * P; i++) S[i] += ne.A[i]! / repMs.length;
+      for (let b = 0; b < blocks.length; b++) {
+        const m = Mr[b]!, m0 = Ms[b]!, src = blocks[b]!.sources, scale = blocks[b]!.scale ?? 1;
+        for (let k = 0; k < src.length; k++) {
+          const w = (scale * wIn[src[k]!]!) / repMs.length, mk = k * P;
+          for (let i = 0; i < P; i++) {
+            const di = w * (m[mk + i]! - m0[mk + i]!);
+            if (di === 0) continue;
+            for (let j = i; j < P; j++) S[i * P + j] += di * (m[mk + j]! - m0[mk + j]!);
+          }
+        }
+      }
     }
+    for (let i = 0; i < P; i++) for (let j = 0; j < i; j++) S[i * P + j] = S[j * P + i]!;
   }
   let corrected = false, unreliable = false, attenuation = 0;
   let Ause = As;
@@ -280,7 +320,7 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
   const sol = spdSolve(Ause, scaleY(main.y), P) ?? spdSolve(As, scaleY(main.y), P);
   if (!sol) {
     const nan = new Float64Array(P).fill(Number.NaN);
-    return { theta: nan, se: nan, replicates: [], sd: nan, mean: nan, dof: 1, residual: Number.POSITIVE_INFINITY, corrected: false, unreliable: true, attenuation };
+    return { theta: nan, se: nan, replicates: [], aligned: repMs.map(() => null), sd: nan, mean: nan, dof: 1, residual: Number.POSITIVE_INFINITY, corrected: false, unreliable: true, attenuation };
   }
   const theta = sol.x.map((v, i) => v * sc[i]!);
   // residual: yy − 2θᵀy + θᵀAθ (unscaled, uncorrected A)
@@ -298,13 +338,17 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
   for (let i = 0; i < P; i++) se[i] = Math.sqrt(Math.max(0, (rss / dof) * sol.inv[i * P + i]!)) * sc[i]!;
   // replicate refits with the same correction
   const reps: Float64Array[] = [];
+  const aligned: (Float64Array | null)[] = [];
+  const Ss = corrected && S ? scaleA(S) : null;
   for (const Mr of repMs) {
     const ne = normalEq(Mr, blocks, wIn, P);
     let Ar = scaleA(ne.A);
     for (let i = 0; i < P; i++) Ar[i * P + i] += 1e-12;
-    if (corrected && S) { const Ss = scaleA(S); Ar = Ar.map((v, i) => v - Ss[i]!); }
+    if (Ss) Ar = Ar.map((v, i) => v - Ss[i]!);
     const r = spdSolve(Ar, scaleY(ne.y), P);
-    if (r) reps.push(r.x.map((v, i) => v * sc[i]!));
+    const x = r ? r.x.map((v, i) => v * sc[i]!) : null;
+    aligned.push(x);
+    if (x) reps.push(x);
     else unreliable = true;
   }
   const sd = new Float64Array(P);
@@ -320,7 +364,7 @@ export function solveWeak(G: Mat, replicates: Mat[], blocks: WeakBlock[], wIn: F
       mean[i] = m;
     }
   }
-  return { theta, se, replicates: reps, sd, mean, dof, residual, corrected, unreliable, attenuation };
+  return { theta, se, replicates: reps, aligned, sd, mean, dof, residual, corrected, unreliable, attenuation };
 }
 
 function matProd(A: Float64Array, B: Float64Array, P: number): Float64Array {
