@@ -14,6 +14,7 @@
  * Pure numerics on row-major matrices; 1-D, co-located sorted points.
  */
 import type { Mat } from '../../linalg/dense.js';
+import { normalCdf } from '../analysis.js';
 
 /**
  * Local φ' = b/a at each centre from (1): weighted least-squares slope of
@@ -122,8 +123,8 @@ export function locateDriftChange(G: Mat, x: Float64Array, t0: number, r: number
  * sources lie beyond R + gap on either side form two rank-one blocks, u₁(x)v(s) and u₂(x)w(s);
  * at a change of a the factors u₁, u₂ keep their value and their flux a u' but their slope
  * jumps. Each factor (leading singular vector of its block) is fitted by a hinge at τ,
- * α + σ_L (x − τ)₋ + σ_R (x − τ)₊ + κ (x − τ)² (the shared curvature absorbs weak drift or
- * reaction); the two RSS profiles (unit-norm factors) are summed.
+ * α + σ (x − τ) + Δσ h_ε(x − τ) + κ (x − τ)² (h_ε the Gaussian-smoothed ramp, ε profiled; the
+ * curvature absorbs weak drift or reaction); the two RSS profiles (unit-norm factors) are summed.
  */
 export function locateKink(G: Mat, x: Float64Array, s: Float64Array, t0: number, r: number, R: number, gap: number): ChangeLocation | null {
   const rowsI: number[] = [];
@@ -146,12 +147,23 @@ export function locateKink(G: Mat, x: Float64Array, s: Float64Array, t0: number,
     factors.push(u);
   }
   if (!factors.length) return null;
+  // a fitted kernel carries the kink smeared over its resolution: the hinge is smoothed by a
+  // Gaussian of width ε, max(d, 0) → E max(d + εZ, 0) = d Φ(d/ε) + ε φ(d/ε), with ε (0 = sharp)
+  // profiled out like τ; a sharp hinge fitted to a smeared kink latches onto the ringing beside it
+  const eps = [0, R / 16, R / 8, R / 4, (3 * R) / 8];
+  const ys = factors.map((u) => Array.from(u));
   const taus: number[] = [], rss: number[] = [];
   for (const i of rowsI) {
     const t = x[i]!;
     if (Math.abs(t - t0) > r) continue;
-    const rows = rowsI.map((q) => { const d = (x[q]! - t) / R; return [1, Math.min(d, 0), Math.max(d, 0), d * d]; });
-    taus.push(t); rss.push(factors.reduce((acc, u) => acc + lsRss(rows, Array.from(u)), 0));
+    let best = Infinity;
+    for (const e of eps) {
+      const rows = rowsI.map((q) => { const d = x[q]! - t; const hinge = e > 0 ? d * normalCdf(d / e) + e * gaussPdf(d / e) : Math.max(d, 0); return [1, d / R, hinge / R, (d / R) ** 2]; });
+      best = Math.min(best, ys.reduce((acc, y) => acc + lsRss(rows, y), 0));
+    }
+    taus.push(t); rss.push(best);
   }
-  return profileInterval(taus, rss, factors.length * (rowsI.length - 5));
+  return profileInterval(taus, rss, factors.length * (rowsI.length - 6));
 }
+
+function gaussPdf(z: number): number { return Math.exp(-0.5 * z * z) / Math.sqrt(2 * Math.PI); }
