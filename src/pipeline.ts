@@ -15,7 +15,6 @@ import { analyses } from './analyses/registry.js';
 import { VERSION } from './version.js';
 import { InputError } from './errors.js';
 import type { Audit, Findings, FitResult, Study, InputFile } from './types.js';
-import { buildDossier } from './report/index.js';
 
 export interface PipelineOptions {
   seed?: number;
@@ -122,6 +121,8 @@ export async function diagnoseDir(inputDir: string, outDir: string, opts: Pipeli
     stage.write('findings.json', JSON.stringify(findings, null, 2) + '\n');
     if (!withReport) return outcome;
     say('writing the dossier');
+    // the report modules (vega, pdfkit, handlebars: ~1 s CPU to load) are imported only when a dossier is written
+    const { buildDossier } = await import('./report/index.js');
     const rep = await buildDossier(stage.stage, { argv: opts.argv, quiet: opts.quiet });
     findings.audit.seconds = (performance.now() - t0) / 1000;
     return { ...outcome, html: resolve(outDir, relative(stage.stage, rep.html)), pdf: resolve(outDir, relative(stage.stage, rep.pdf)) };

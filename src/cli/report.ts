@@ -1,6 +1,5 @@
 /** `kerneldx report DIR`: DIR/findings.json (+ kernel) → DIR/dossier.html and DIR/dossier.pdf. */
 import type { Register } from './commands.js';
-import { buildDossier } from '../report/index.js';
 
 export const registerReport: Register = (program, io) => {
   program.command('report <dir>')
@@ -8,6 +7,7 @@ export const registerReport: Register = (program, io) => {
     .option('--quiet', 'no progress on stderr')
     .option('--json', 'print the paths written as JSON on stdout')
     .action(async (dir: string, o: { quiet?: boolean; json?: boolean }) => {
+      const { buildDossier } = await import('../report/index.js'); // loaded only for this command
       const r = await buildDossier(dir, { quiet: !!o.quiet, argv: process.argv.slice(2) });
       io.stdout(o.json ? JSON.stringify({ html: r.html, pdf: r.pdf }) + '\n' : `${r.html}\n${r.pdf}\n`);
     });

@@ -64,8 +64,9 @@ function validate(z: ArrayLike<number>, f: ArrayLike<number>): void {
 
 /**
  * Weights = right singular vector of the smallest singular value of the Loewner matrix
- * (rows = non-support samples, columns = support points). Householder QR first, then the
- * SVD of the small triangular factor, so a tall matrix costs O(rows · m²).
+ * (rows = non-support samples, columns = support points). Householder QR with column pivoting
+ * first, so a tall matrix costs O(rows · m²), then the smallest right singular vector of the
+ * small triangular factor (see `smallestRightSingular`).
  */
 function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: Float64Array): Float64Array {
   const M = Z.length, m = zs.length;
@@ -79,10 +80,28 @@ function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: 
   }
   // column-major working copy for Householder QR
   const A = new Float64Array(M * m);
-  for (let j = 0; j < m; j++) for (let i = 0; i < M; i++) A[j * M + i] = (F[i]! - fs[j]!) / (Z[i]! - zs[j]!);
+  for (let j = 0; j < m; j++) {
+    const cj = j * M, fj = fs[j]!, zj = zs[j]!;
+    for (let i = 0; i < M; i++) A[cj + i] = (F[i]! - fj) / (Z[i]! - zj);
+  }
+  // column pivoting (Businger & Golub 1965): the largest remaining column first, so that R is
+  // graded and the Jacobi iteration below converges in few sweeps (Drmač & Veselić 2008)
+  const perm = Int32Array.from({ length: m }, (_, j) => j);
+  const cn = new Float64Array(m);
+  for (let j = 0; j < m; j++) { let t = 0; for (let i = 0; i < M; i++) t += A[j * M + i]! * A[j * M + i]!; cn[j] = t; }
+  const exact = Float64Array.from(cn);
   const R = matZeros(m, m);
   const v = new Float64Array(M);
   for (let k = 0; k < m; k++) {
+    let piv = k;
+    for (let j = k + 1; j < m; j++) if (cn[j]! > cn[piv]!) piv = j;
+    if (piv !== k) {
+      const ck = k * M, cp = piv * M;
+      for (let i = 0; i < M; i++) { const t = A[ck + i]!; A[ck + i] = A[cp + i]!; A[cp + i] = t; }
+      const t = cn[k]!; cn[k] = cn[piv]!; cn[piv] = t;
+      const te = exact[k]!; exact[k] = exact[piv]!; exact[piv] = te;
+      const pk = perm[k]!; perm[k] = perm[piv]!; perm[piv] = pk;
+    }
     const ck = k * M;
     let nrm = 0;
     for (let i = k; i < M; i++) nrm += A[ck + i]! * A[ck + i]!;
@@ -102,37 +121,81 @@ function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: 
       for (let i = k; i < M; i++) dot += v[i]! * A[cj + i]!;
       const t = (2 * dot) / vv;
       for (let i = k; i < M; i++) A[cj + i] = A[cj + i]! - t * v[i]!;
+      // remaining column norm below row k: downdated, recomputed once cancellation looms (as LAPACK's xGEQP3)
+      cn[j] = cn[j]! - A[cj + k]! * A[cj + k]!;
+      if (cn[j]! <= 1e-4 * exact[j]!) {
+        let s2 = 0;
+        for (let i = k + 1; i < M; i++) s2 += A[cj + i]! * A[cj + i]!;
+        cn[j] = s2; exact[j] = s2;
+      }
     }
   }
   for (let i = 0; i < m; i++) for (let j = i; j < m; j++) R.data[i * m + j] = A[j * M + i]!;
-  return smallestRightSingular(R);
+  const y = smallestRightSingular(R);
+  // A P = Q R: the weights are w = P y
+  const w = new Float64Array(m);
+  for (let j = 0; j < m; j++) w[perm[j]!] = y[j]!;
+  return w;
 }
 
 /**
- * Right singular vector of the smallest singular value of a small square matrix by one-sided
- * Jacobi rotations (Hestenes 1958; Demmel & Veselić, SIAM J. Matrix Anal. Appl. 1992: high
- * relative accuracy, which the nearly singular Loewner factor needs).
+ * Right singular vector of the smallest singular value of a small square matrix R by one-sided
+ * Jacobi rotations of its columns (Hestenes 1958; Demmel & Veselić, SIAM J. Matrix Anal. Appl.
+ * 1992: high relative accuracy, which the nearly singular Loewner factor needs), applied to the
+ * triangular factor of a second QR, Rᵀ = Q₂R₂ (R = R₂ᵀQ₂ᵀ, so the right singular vectors of R
+ * are Q₂ times those of R₂ᵀ), which cuts the number of sweeps about in half.
  */
+// QR preconditioning of one-sided Jacobi: Drmač & Veselić, SIAM J. Matrix Anal. Appl. 29 (2008).
+// Column norms updated by the rotation (Rutishauser's formulas, as in Golub & Van Loan §8.5, from memory), recomputed each sweep.
 function smallestRightSingular(R: Mat): Float64Array {
-  const m = R.cols, n = R.rows;
-  // column-major copies: U (n × m) and V (m × m)
-  const U = new Float64Array(n * m), V = new Float64Array(m * m);
-  for (let j = 0; j < m; j++) { for (let i = 0; i < n; i++) U[j * n + i] = R.data[i * m + j]!; V[j * m + j] = 1; }
+  const m = R.cols;
+  if (R.rows !== m) throw new Error('aaa: smallestRightSingular expects a square factor');
+  // T = Rᵀ in column-major order (column i of T = row i of R), overwritten by its Householder QR
+  const T = Float64Array.from(R.data);
+  const beta = new Float64Array(m);
+  // U: columns of X = R₂ᵀ (column-major), V: accumulated rotations
+  const U = new Float64Array(m * m), V = new Float64Array(m * m);
+  for (let k = 0; k < m; k++) {
+    const ck = k * m;
+    let nrm = 0;
+    for (let i = k; i < m; i++) nrm += T[ck + i]! * T[ck + i]!;
+    nrm = Math.sqrt(nrm);
+    if (nrm === 0) continue;
+    const alpha = T[ck + k]! > 0 ? -nrm : nrm;
+    const v0 = T[ck + k]! - alpha;
+    T[ck + k] = v0; // the reflector is kept in column k from row k down
+    let vv = v0 * v0;
+    for (let i = k + 1; i < m; i++) vv += T[ck + i]! * T[ck + i]!;
+    beta[k] = vv === 0 ? 0 : 2 / vv;
+    for (let j = k + 1; j < m; j++) {
+      const cj = j * m;
+      let dot = 0;
+      for (let i = k; i < m; i++) dot += T[ck + i]! * T[cj + i]!;
+      const t = beta[k]! * dot;
+      for (let i = k; i < m; i++) T[cj + i] = T[cj + i]! - t * T[ck + i]!;
+    }
+    U[k * m + k] = alpha; // R₂[k][k]
+  }
+  // X[i][j] = R₂[j][i] = T[i·m + j] for i > j
+  for (let j = 0; j < m; j++) { for (let i = j + 1; i < m; i++) U[j * m + i] = T[i * m + j]!; V[j * m + j] = 1; }
+  const d = new Float64Array(m);
   for (let sweep = 0; sweep < 30; sweep++) {
+    for (let j = 0; j < m; j++) { let s = 0; for (let i = 0; i < m; i++) s += U[j * m + i]! * U[j * m + i]!; d[j] = s; }
     let rotated = false;
     for (let p = 0; p < m - 1; p++) {
       for (let q = p + 1; q < m; q++) {
-        let a = 0, b = 0, g = 0;
-        const up = p * n, uq = q * n;
-        for (let i = 0; i < n; i++) { const x = U[up + i]!, y = U[uq + i]!; a += x * x; b += y * y; g += x * y; }
+        const up = p * m, uq = q * m;
+        let g = 0;
+        for (let i = 0; i < m; i++) g += U[up + i]! * U[uq + i]!;
+        const a = d[p]!, b = d[q]!;
         if (g === 0 || Math.abs(g) <= m * EPS * Math.sqrt(a * b)) continue;
         rotated = true;
         const zeta = (b - a) / (2 * g);
         const t = (zeta >= 0 ? 1 : -1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
         const c = 1 / Math.sqrt(1 + t * t), s = c * t;
-        for (let i = 0; i < n; i++) { const x = U[up + i]!, y = U[uq + i]!; U[up + i] = c * x - s * y; U[uq + i] = s * x + c * y; }
-        const vp = p * m, vq = q * m;
-        for (let i = 0; i < m; i++) { const x = V[vp + i]!, y = V[vq + i]!; V[vp + i] = c * x - s * y; V[vq + i] = s * x + c * y; }
+        for (let i = 0; i < m; i++) { const x = U[up + i]!, y = U[uq + i]!; U[up + i] = c * x - s * y; U[uq + i] = s * x + c * y; }
+        for (let i = 0; i < m; i++) { const x = V[up + i]!, y = V[uq + i]!; V[up + i] = c * x - s * y; V[uq + i] = s * x + c * y; }
+        d[p] = a - t * g; d[q] = b + t * g;
       }
     }
     if (!rotated) break;
@@ -140,10 +203,20 @@ function smallestRightSingular(R: Mat): Float64Array {
   let jmin = 0, best = Infinity;
   for (let j = 0; j < m; j++) {
     let nrm = 0;
-    for (let i = 0; i < n; i++) nrm += U[j * n + i]! * U[j * n + i]!;
+    for (let i = 0; i < m; i++) nrm += U[j * m + i]! * U[j * m + i]!;
     if (nrm < best) { best = nrm; jmin = j; }
   }
-  return V.slice(jmin * m, (jmin + 1) * m);
+  // w = Q₂ v = H₀ H₁ ⋯ H_{m−1} v
+  const w = V.slice(jmin * m, (jmin + 1) * m);
+  for (let k = m - 1; k >= 0; k--) {
+    if (beta[k] === 0) continue;
+    const ck = k * m;
+    let dot = 0;
+    for (let i = k; i < m; i++) dot += T[ck + i]! * w[i]!;
+    const t = beta[k]! * dot;
+    for (let i = k; i < m; i++) w[i] = w[i]! - t * T[ck + i]!;
+  }
+  return w;
 }
 
 function lastColumn(V: Mat, s: Float64Array): Float64Array {
