@@ -70,26 +70,54 @@ interface SpanSolve {
   gcv: number;
 }
 
-/** GCV over λ for complete rows Ũ (rows × N) given A = F̃ W K W F̃ᵀ. */
-function gcvRows(A: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0, eig?: { vectors: Mat; values: Float64Array }): SpanSolve {
-  const N = A.rows, rows = Uc.rows;
+/** Per-direction sums a_m = Σ_i C_im², b_m = Σ_i C_im CZ_im, e_m = Σ_i CZ_im² of eigen-coordinates. */
+function directionSums(C: Mat, CZ?: Mat): { a2: Float64Array; ab: Float64Array; e2: Float64Array } {
+  const N = C.cols, rows = C.rows;
+  const a2 = new Float64Array(N), ab = new Float64Array(N), e2 = new Float64Array(N);
+  for (let i = 0; i < rows; i++) for (let m = 0; m < N; m++) {
+    const v = C.data[i * N + m]!;
+    a2[m] += v * v;
+    if (CZ) { const z = CZ.data[i * N + m]!; ab[m] += v * z; e2[m] += z * z; }
+  }
+  return { a2, ab, e2 };
+}
+
+/**
+ * GCV score at ratio λ of the rows Ũ − δZ given their per-direction sums (directionSums) and the
+ * out-of-basis energies (qa0, qb0, qe0: what the eigenbasis misses, 0 when it is complete): the residual
+ * is quadratic in δ, so with `level` δ takes its minimiser (closed form), else δ = 0.
+ */
+function gcvAt(d: Float64Array, s: { a2: Float64Array; ab: Float64Array; e2: Float64Array }, lam: number, rows: number, nObs: number, extraDof: number, level: boolean, out = { qa0: 0, qb0: 0, qe0: 0 }) {
+  let qa = out.qa0, qb = out.qb0, qe = out.qe0, dof = 0;
+  for (let m = 0; m < d.length; m++) {
+    // directions with d = 0 are unfittable: their energy stays in the residual (f = 1)
+    const f = lam / (d[m]! + lam), f2 = f * f;
+    qa += f2 * s.a2[m]!; qb += f2 * s.ab[m]!; qe += f2 * s.e2[m]!;
+    dof += d[m]! / (d[m]! + lam);
+  }
+  const delta = level && qe > 0 ? qb / qe : 0;
+  const rss = Math.max(0, qa - 2 * delta * qb + delta * delta * qe);
+  dof = dof * rows + extraDof;
+  const den = nObs - dof;
+  return { rss, dof, delta, gcv: den > 0 ? (nObs * rss) / (den * den) : Infinity };
+}
+
+/**
+ * GCV over λ for complete rows Ũ (rows × N) given A = F̃ W K W F̃ᵀ. With Z (rows × N) the rows are
+ * Ũ − δ Z with a common level δ that is a hyper-parameter too: the residual is quadratic in δ for every
+ * λ, so its minimiser is closed-form and GCV is minimised jointly over (λ, δ) on the λ grid (δ counted as
+ * one parameter in extraDof by the caller).
+ */
+function gcvRows(A: Mat, Uc: Mat, nObs: number, fixedLambda?: number, extraDof = 0, eig?: { vectors: Mat; values: Float64Array }, Z?: Mat): SpanSolve & { delta: number } {
   const e = eig ?? eigSym(A);
   const d = Float64Array.from(e.values, (v) => Math.max(v, 0));
-  const C = matmul(Uc, e.vectors); // rows × N: c_im
-  const c2 = new Float64Array(N);
-  for (let i = 0; i < rows; i++) for (let m = 0; m < N; m++) c2[m] += C.data[i * N + m]! ** 2;
-  let yy = 0;
+  const s = directionSums(matmul(Uc, e.vectors), Z ? matmul(Z, e.vectors) : undefined);
+  let yy = 0, yz = 0, zz = 0;
   for (const v of Uc.data) yy += v * v;
-  const evalAt = (lam: number) => {
-    let rss = 0, dof = 0;
-    for (let m = 0; m < N; m++) { const f = lam / (d[m]! + lam); rss += f * f * c2[m]!; dof += d[m]! / (d[m]! + lam); }
-    // directions with d = 0 are unfittable: their energy stays in the residual (included via f = 1)
-    const used = c2.reduce((a, b) => a + b, 0);
-    rss += Math.max(0, yy - used);
-    dof = dof * rows + extraDof;
-    const den = nObs - dof;
-    return { rss, dof, gcv: den > 0 ? (nObs * rss) / (den * den) : Infinity };
-  };
+  if (Z) for (let k = 0; k < Uc.data.length; k++) { yz += Uc.data[k]! * Z.data[k]!; zz += Z.data[k]! ** 2; }
+  const sum = (x: Float64Array) => x.reduce((p, q) => p + q, 0);
+  const rest = { qa0: Math.max(0, yy - sum(s.a2)), qb0: yz - sum(s.ab), qe0: Math.max(0, zz - sum(s.e2)) };
+  const evalAt = (lam: number) => gcvAt(d, s, lam, Uc.rows, nObs, extraDof, !!Z, rest);
   let lambda = fixedLambda ?? 0;
   if (fixedLambda === undefined) {
     const top = Math.max(d[0]!, 1e-300);
@@ -147,7 +175,9 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     return { form, Phi, Z: singularResponses(Phi, complete, FWc) };
   });
   if (forms.length) o.progress('span model: testing a singular part on the diagonal (logarithmic, with images, r² ln r) jointly with the prior');
-  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null; shrink?: Shrinkage; eig?: { vectors: Mat; values: Float64Array } } | null = null;
+  // per prior: the plain solve and, per form, its λ and shrinkage (the replicates re-choose among them)
+  interface Cand { form: (typeof forms)[number]; lambda: number; shrink: Shrinkage }
+  let best: { prior: Prior; sol: SpanSolve; KWF: Mat; A: Mat; form: (typeof forms)[number] | null; c: Float64Array | null; shrink?: Shrinkage; eig: { vectors: Mat; values: Float64Array }; base: SpanSolve; cands: Cand[] } | null = null;
   const tried: string[] = [];
   for (const prior of priors) {
     const KWF = priorTimes(prep, prior, FWc, Kcache);
@@ -155,33 +185,19 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     const eig = eigSym(A);
     const sol = gcvRows(A, Uc, nObsChoice, undefined, 0, eig);
     tried.push(`${prior.name}=${sol.gcv.toPrecision(4)}`);
-    if (!best || sol.gcv < best.sol.gcv) best = { prior, sol, KWF, A, form: null, c: null };
+    const cands: Cand[] = [];
+    let here: { sol: SpanSolve; form: (typeof forms)[number] | null; c: Float64Array | null; shrink?: Shrinkage } = { sol, form: null, c: null };
     for (const f of forms) {
+      // c_i by GLS shrunk toward their mean (spanSingular.ts); the GLS level is pulled toward the part of
+      // the remainder that resembles Φ, so the common level c_i + δ is a hyper-parameter, chosen by GCV
+      // jointly with λ for every form and prior (closed form in δ, see gcvRows)
       const { c, shrink } = singularCoefficients(sol.V, sol.d, sol.lambda, f.Z, Uc);
-      const solS = gcvRows(A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length, eig);
+      const solS = gcvRows(A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length + 1, eig, f.Z);
       tried.push(`${prior.name}+${f.form}=${solS.gcv.toPrecision(4)}`);
-      if (solS.gcv < best.sol.gcv) best = { prior, sol: solS, KWF, A, form: f, c, shrink, eig };
+      cands.push({ form: f, lambda: solS.lambda, shrink });
+      if (solS.gcv < here.sol.gcv) here = { sol: solS, form: f, c: Float64Array.from(c, (v) => v + solS.delta), shrink: { ...shrink, offset: solS.delta } };
     }
-  }
-  if (best!.form && best!.c && best!.shrink) {
-    // the GLS coefficients are pulled toward the part of the remainder that resembles Φ; their common
-    // level is refined as a hyper-parameter by GCV (c_i + δ, δ on a grid of ±50 % of the median, moved
-    // until the minimum is inside the grid: a 1-D GCV minimisation)
-    const b = best!, f = b.form!, med = Math.abs(Array.from(b.c!).sort((x, y) => x - y)[b.c!.length >> 1]!);
-    let centre = 0;
-    for (let round = 0; round < 6; round++) {
-      let moved = false;
-      for (let k = -10; k <= 10; k++) {
-        const offset = centre + (k / 20) * med;
-        if (offset === (best!.shrink?.offset ?? 0)) continue;
-        const shrink = { ...b.shrink!, offset };
-        const { c } = singularCoefficients(b.sol.V, b.sol.d, b.sol.lambda, f.Z, Uc, shrink);
-        const solS = gcvRows(b.A, subtractSingular(Uc, f.Z, c), nObsChoice, undefined, complete.length + 1, b.eig);
-        if (solS.gcv < best!.sol.gcv) { best = { ...b, sol: solS, c, shrink }; moved = Math.abs(k) === 10; }
-      }
-      if (!moved) break;
-      centre = best!.shrink!.offset ?? 0;
-    }
+    if (!best || here.sol.gcv < best.sol.gcv) best = { prior, KWF, A, eig, base: sol, cands, ...here };
   }
   const singular = best!.form && best!.c && best!.shrink ? { form: best!.form.form, Phi: best!.form.Phi, Z: best!.form.Z, c: best!.c, shrink: best!.shrink } : null;
   const singularNotes: Record<string, number | string> = {};
@@ -224,9 +240,35 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
     const sing = singular;
     // with a singular part: c_i by GLS from the rows' data, the span model on the remainder, plus c_i Φ(x_i, ·)
     const mapRows = !sing ? (U: Mat): Mat => baseMap(U) : (U: Mat): Mat => {
-      const { c } = singularCoefficients(sol.V, sol.d, sol.lambda, sing.Z, U, sing.shrink);
+      // the GLS at the plain solve's λ, as in the choice, so that mapRows(Ũ) reproduces the chosen c_i
+      const { c } = singularCoefficients(sol.V, sol.d, best!.base.lambda, sing.Z, U, sing.shrink);
       const Gm = baseMap(subtractSingular(U, sing.Z, c));
       complete.forEach((row, r) => { for (let k = 0; k < nI; k++) Gm.data[r * nI + k] += c[r]! * sing.Phi.data[row * nI + k]!; });
+      return Gm;
+    };
+    // replicates re-choose the singular part (none or a form, at the chosen prior and each form's λ) and
+    // its common level by GCV, as the fit did, so that the uncertainty of that selection enters their
+    // spread; the remainder's map stays the fitted one (the bootstrap of a data-driven choice: Efron &
+    // Tibshirani, An Introduction to the Bootstrap 1993, ch. 17 — from memory)
+    const CZcache = new Map<string, Mat>();
+    const repMap = !forms.length ? mapRows : (U: Mat): Mat => {
+      const b = best!, V = b.eig.vectors, rows = U.rows;
+      const d = b.base.d;
+      const CU = matmul(U, V);
+      let pick = { gcv: gcvAt(d, directionSums(CU), b.base.lambda, rows, nObsChoice, 0, false).gcv, c: null as Float64Array | null, cand: null as Cand | null };
+      for (const cd of b.cands) {
+        let CZ = CZcache.get(cd.form.form);
+        if (!CZ) { CZ = matmul(cd.form.Z, V); CZcache.set(cd.form.form, CZ); }
+        const { c } = singularCoefficients(V, d, b.base.lambda, cd.form.Z, U, { ...cd.shrink, offset: 0 }, { CZ, CU });
+        const R = zeros(rows, CU.cols);
+        for (let i = 0; i < rows; i++) for (let m = 0; m < CU.cols; m++) R.data[i * CU.cols + m] = CU.data[i * CU.cols + m]! - c[i]! * CZ.data[i * CU.cols + m]!;
+        const g = gcvAt(d, directionSums(R, CZ), cd.lambda, rows, nObsChoice, rows + 1, true);
+        if (g.gcv < pick.gcv) pick = { gcv: g.gcv, c: Float64Array.from(c, (v) => v + g.delta), cand: cd };
+      }
+      if (!pick.cand || !pick.c) return baseMap(U);
+      const Gm = baseMap(subtractSingular(U, pick.cand.form.Z, pick.c));
+      const Phi = pick.cand.form.Phi;
+      complete.forEach((row, r) => { for (let k = 0; k < nI; k++) Gm.data[r * nI + k] += pick.c![r]! * Phi.data[row * nI + k]!; });
       return Gm;
     };
     if (complete.length === colsOut && cOut === 1) {
@@ -258,7 +300,7 @@ export function fitPathSpan(prep: Prepared, sets: number[][], o: {
         m /= N; me[r] = m;
         for (let j = 0; j < N; j++) D.data[r * N + j] = GWF.data[r * N + j]! + e[j]! - m;
       }
-      const Gr = mapRows(D);
+      const Gr = repMap(D);
       complete.forEach((c, r) => {
         repG[rep]!.data.set(Gr.data.subarray(r * nI, (r + 1) * nI), c * nI);
         let s = 0;

@@ -87,11 +87,12 @@ export interface Shrinkage { b: Float64Array; wts: Float64Array; /** added to ev
  * second-order operator) varies slowly, so the c_i are shrunk toward their precision-weighted mean by
  * the empirical-Bayes (Morris) rule c_i ← c̄ + s²/(s² + v_i) (c_i − c̄), with the spread s² of the true
  * coefficients by the method of moments (Efron & Morris, JASA 1973; Morris, JASA 1983). With `fixed`
- * the shrinkage factors are reused (bootstrap replicates: the map stays linear in the data).
+ * the shrinkage factors are reused (bootstrap replicates).
  */
-export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z: Mat, U: Mat, fixed?: Shrinkage): { c: Float64Array; shrink: Shrinkage } {
+export function singularCoefficients(V: Mat, d: Float64Array, lambda: number, Z: Mat, U: Mat, fixed?: Shrinkage, coords?: { CZ: Mat; CU: Mat }): { c: Float64Array; shrink: Shrinkage } {
   const N = V.rows, rows = Z.rows;
-  const CZ = matmul(Z, V), CU = matmul(U, V);
+  // coords: Z V and U V when the caller has them already
+  const CZ = coords?.CZ ?? matmul(Z, V), CU = coords?.CU ?? matmul(U, V);
   const raw = new Float64Array(rows), prec = new Float64Array(rows);
   let q = 0;
   for (let i = 0; i < rows; i++) {
