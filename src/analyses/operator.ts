@@ -302,7 +302,11 @@ export function coefficientProfiles(kernel: Kernel, replicates: Mat[], opts: Pro
   const cap = (hi - lo) / 2;
   if (opts.radius !== undefined) return profileAt(kernel, replicates, opts, Math.min(opts.radius, cap));
   const floor = 5 * maxSpacing(xOut);
-  const cands = [...new Set((opts.order === 4 ? RADII_4 : RADII_2).map((f) => Math.min(cap, Math.max(f * L, floor))))].sort((x, y) => x - y);
+  // the ladder's radii that fit in the interval (a bump filling it would reach its ends, at an
+  // interface into the fit's smearing of the kink there); the half-width only if none fits
+  const ladder = (opts.order === 4 ? RADII_4 : RADII_2).map((f) => Math.max(f * L, floor));
+  const fits = ladder.filter((r) => r < cap);
+  const cands = [...new Set(fits.length ? fits : [Math.min(cap, ladder[0]!)])].sort((x, y) => x - y);
   const pick = cands.length === 1 ? { index: 0, scores: [{ relativeBand: Number.NaN, agrees: true }] } : lepskiPick(kernel, replicates.slice(0, LEPSKI_REPLICATES), opts, cands, [lo, hi]);
   const res = profileAt(kernel, replicates, opts, cands[pick.index]!);
   res.radiusScores = pick.scores.map((sc, i) => ({ radius: cands[i]!, ...sc }));
@@ -316,51 +320,36 @@ const RADII_4 = [0.18, 0.22, 0.26, 0.3];
 const LEPSKI_REPLICATES = 10;
 
 /**
- * Bump radius by Lepski's rule (Lepski, Theory Probab. Appl. 35, 1991; Lepski & Spokoiny, Ann.
- * Statist. 25, 1997): with radii r_1 < … < r_K, whose estimates lose random error and gain
- * model (locally-linear) bias as r grows, take the largest r_k whose estimate agrees with that of
- * every smaller radius within the random error of their difference, at common probe positions
- * and for every term. The difference's error is its spread over the same replicate kernels plus
- * both least-squares standard errors; the multiplier is Student's t at the Welch–Satterthwaite dof,
- * Šidák-adjusted over the comparisons of the step (as in the bands).
+ * Bump radius by Lepski's rule in its intersection-of-confidence-intervals form (Lepski, Theory
+ * Probab. Appl. 35, 1991; Lepski & Spokoiny, Ann. Statist. 25, 1997; Goldenshluger & Nemirovski,
+ * Math. Methods Statist. 6, 1997): with radii r_1 < … < r_K, whose estimates lose random error and
+ * gain model (locally-linear) bias as r grows, take the largest r_k whose band still intersects
+ * the bands of every smaller radius, at common probe positions and for every term. The bands are
+ * the profiles' own (random part, systematic part and bootstrap bias; see halfWidth).
  */
 function lepskiPick(kernel: Kernel, reps: Mat[], opts: ProfileOptions, cands: number[], [lo, hi]: [number, number]): { index: number; scores: { relativeBand: number; agrees: boolean }[] } {
   const rK = cands[cands.length - 1]!;
   const probes = [...new Set(hi - lo - 2 * rK > 1e-9 ? [lo + rK, (lo + hi) / 2, hi - rK] : [(lo + hi) / 2])];
-  const st = setupOf(kernel, opts.order);
-  const params = modelParams(opts.order, opts.advection, true);
-  const P = params.length;
-  const idx = [...new Set(params.map((p) => p.term))].map((n) => params.findIndex((p) => p.term === n && p.degree === 0));
-  const lead = params.findIndex((p) => p.term === (opts.order === 4 ? 'fourth-order' : 'diffusion') && p.degree === 0);
-  const sols = cands.map((r) => probes.map((x0) => solveWeak(kernel.G, reps, blocks1d(st.xOut, st.wOut, st.xIn, x0, r, params, opts.order), st.wIn, P)));
-  const scores = sols.map((row) => {
-    const rel = row.map((q) => (Math.sqrt(q.sd[lead]! ** 2 + q.se[lead]! ** 2)) / Math.max(Math.abs(q.theta[lead]!), 1e-300)).sort((x, y) => x - y);
-    return { relativeBand: rel[rel.length >> 1]!, agrees: true };
+  const leadName: TermName = opts.order === 4 ? 'fourth-order' : 'diffusion';
+  const profs = cands.map((r) => profileAt(kernel, reps, opts, r, probes));
+  const scores = profs.map((pr) => {
+    const t = pr.terms.find((q) => q.name === leadName)!;
+    const rel = t.value.map((v, i) => (t.upper[i]! - t.lower[i]!) / 2 / Math.max(Math.abs(v), 1e-300)).sort((x, y) => x - y);
+    return { relativeBand: rel.length ? rel[rel.length >> 1]! : Number.POSITIVE_INFINITY, agrees: true };
   });
+  // running intersection of the bands per term and probe
+  const bandAt = (t: TermProfile, x: number, side: 'lower' | 'upper') => { const i = t.x.indexOf(x); return i >= 0 ? t[side][i]! : Number.NaN; };
+  const lower = profs[0]!.terms.map((t) => probes.map((x) => bandAt(t, x, 'lower')));
+  const upper = profs[0]!.terms.map((t) => probes.map((x) => bandAt(t, x, 'upper')));
   let index = 0;
   for (let k = 1; k < cands.length; k++) {
-    const m = k * probes.length * idx.length;
     let ok = true;
-    for (let j = 0; j < k && ok; j++) {
-      for (let p = 0; p < probes.length && ok; p++) {
-        const A = sols[k]![p]!, B = sols[j]![p]!;
-        for (const i of idx) {
-          const d = A.theta[i]! - B.theta[i]!;
-          if (!Number.isFinite(d)) { ok = false; break; }
-          // replicate spread of the difference (same replicate kernels, so correlation counts)
-          const ds: number[] = [];
-          A.aligned.forEach((a, q) => { const b = B.aligned[q]; if (a && b && Number.isFinite(a[i]! - b[i]!)) ds.push(a[i]! - b[i]!); });
-          let vs = 0;
-          if (ds.length >= 2) { const mu = ds.reduce((x, y) => x + y, 0) / ds.length; for (const v of ds) vs += (v - mu) ** 2; vs /= ds.length - 1; }
-          const ve = A.se[i]! ** 2 + B.se[i]! ** 2;
-          const dofE = Math.min(A.dof, B.dof);
-          const den = (ds.length >= 2 ? (vs * vs) / (ds.length - 1) : 0) + (ve * ve) / dofE;
-          const nu = den > 0 ? (vs + ve) ** 2 / den : Number.POSITIVE_INFINITY;
-          if (Math.abs(d) > simultaneousT(m, nu) * Math.sqrt(vs + ve)) { ok = false; break; }
-        }
-      }
-    }
-    if (!ok) { scores[k]!.agrees = false; break; }
+    profs[k]!.terms.forEach((t, ti) => probes.forEach((x, p) => {
+      const l = Math.max(lower[ti]![p]!, bandAt(t, x, 'lower')), u = Math.min(upper[ti]![p]!, bandAt(t, x, 'upper'));
+      if (!(l <= u)) ok = false;
+      lower[ti]![p] = l; upper[ti]![p] = u;
+    }));
+    if (!ok) break;
     index = k;
   }
   for (let k = index + 1; k < cands.length; k++) scores[k]!.agrees = false;
@@ -421,7 +410,7 @@ export function piecewiseProfiles(kernel: Kernel, replicates: Mat[], opts: Profi
   return merged;
 }
 
-function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: number): ProfileResult {
+function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: number, at?: number[]): ProfileResult {
   const st = setupOf(kernel, opts.order);
   const { xOut, xIn, wOut, wIn, wEven, wOdd, factors } = st;
   const [dlo, dhi] = interval(kernel.domain, kernel.pointsOut);
@@ -431,7 +420,7 @@ function profileAt(kernel: Kernel, replicates: Mat[], opts: ProfileOptions, r: n
   const P = params.length;
   const span = hi - lo - 2 * r;
   const nC = span > 0 ? Math.max(1, Math.floor(span / (r / 2)) + 1) : 1;
-  const centers = Array.from({ length: nC }, (_, i) => (nC === 1 ? (lo + hi) / 2 : lo + r + (Math.max(span, 0) * i) / (nC - 1)));
+  const centers = at ?? Array.from({ length: nC }, (_, i) => (nC === 1 ? (lo + hi) / 2 : lo + r + (Math.max(span, 0) * i) / (nC - 1)));
   const names = [...new Set(params.map((p) => p.term))];
   const terms: TermProfile[] = names.map((n) => ({ name: n, form: FORMS[n], x: [], value: [], lower: [], upper: [], sd: [], se: [], sensitivity: [] }));
   const residuals: number[] = [];
