@@ -185,6 +185,19 @@ describe('bands, variable and piecewise coefficients', () => {
       expect(a.lower[i]! <= want && want <= a.upper[i]!).toBe(true);
     });
   });
+  it('piecewise bar a = 1 | 10 at 0.4 through the noisy stand-in: each side within 5 % at noise 0 and 10 % at 0.01, bands cover 1 and 10 at every level — entry e (derived from (i))', () => {
+    LEVELS.forEach((noise, i) => {
+      const fit = fitStandIn(kernel1d(piecewise(1, 10, 0.4), 200), { noise, err: ERR.lap[i]!, seed: 21 });
+      const p = piecewiseProfiles(fit.kernel, fit.noise.replicates, { order: 2, advection: false }, [0.4], [0.008])!;
+      const a = term(p, 'diffusion');
+      expect(a.x.some((x) => x > 0.4)).toBe(true);
+      a.x.forEach((x, k) => {
+        const want = x < 0.4 ? 1 : 10;
+        if (noise <= 0.01) expect(Math.abs(a.value[k]! - want) / want).toBeLessThan(noise === 0 ? 0.05 : 0.10);
+        expect(a.lower[k]! <= want && want <= a.upper[k]!).toBe(true);
+      });
+    });
+  });
   it('the analysis writes one expression per side when the interfaces analysis reports an interface (entry e)', () => {
     const k = kernel1d(piecewise(1, 3, 0.55), 200);
     const out = operatorAnalysis.run(k, ctxOf(none, {
