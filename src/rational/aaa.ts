@@ -384,23 +384,26 @@ function arrowheadEigenvalues(zs: Float64Array, u: Float64Array): ComplexArray {
   h[0] = h[0]! + (u[0]! >= 0 ? unrm : -unrm);
   let hh = 0;
   for (let j = 0; j < m; j++) hh += h[j]! * h[j]!;
-  const P = (i: number, j: number) => (i === j ? 1 : 0) - (2 * h[i]! * h[j]!) / hh;
-  // columns 1..m−1 of P form Q
-  const Q = matZeros(m, m - 1);
-  for (let i = 0; i < m; i++) for (let j = 1; j < m; j++) Q.data[i * (m - 1) + j - 1] = P(i, j);
-  const H = matZeros(m - 1, m - 1);
-  const qe = new Float64Array(m - 1), qdu = new Float64Array(m - 1);
-  for (let a = 0; a < m - 1; a++) {
-    let se = 0, sdu = 0;
-    for (let i = 0; i < m; i++) { const q = Q.data[i * (m - 1) + a]!; se += q; sdu += q * d[i]! * u[i]!; }
-    qe[a] = se; qdu[a] = sdu;
+  // with Q = columns 1..m−1 of P, in closed form (O(m²)): c = 2/hᵀh, γ = Σ h²d,
+  // (PDP)_ij = d_i δ_ij − c h_i h_j (d_i + d_j) + c² γ h_i h_j, Pᵀ1 = 1 − c h Σh, PᵀDu = Du − c h (hᵀDu)
+  const cH = 2 / hh;
+  let gamma = 0, sh = 0, shdu = 0;
+  for (let i = 0; i < m; i++) { gamma += h[i]! * h[i]! * d[i]!; sh += h[i]!; shdu += h[i]! * d[i]! * u[i]!; }
+  const n1 = m - 1;
+  const H = matZeros(n1, n1);
+  const qe = new Float64Array(n1), qdu = new Float64Array(n1);
+  for (let a = 0; a < n1; a++) {
+    const ha = h[a + 1]!;
+    qe[a] = 1 - cH * ha * sh;
+    qdu[a] = d[a + 1]! * u[a + 1]! - cH * ha * shdu;
   }
   const tiny = Math.abs(S) < 1e-300;
-  for (let a = 0; a < m - 1; a++) {
-    for (let b = 0; b < m - 1; b++) {
-      let t = 0;
-      for (let i = 0; i < m; i++) t += Q.data[i * (m - 1) + a]! * d[i]! * Q.data[i * (m - 1) + b]!;
-      H.data[a * (m - 1) + b] = t - (tiny ? 0 : (qe[a]! * qdu[b]!) / S);
+  for (let a = 0; a < n1; a++) {
+    const ha = h[a + 1]!, da = d[a + 1]!;
+    for (let b = 0; b < n1; b++) {
+      const hb = h[b + 1]!, db = d[b + 1]!;
+      const t = (a === b ? da : 0) - cH * ha * hb * (da + db) + cH * cH * gamma * ha * hb;
+      H.data[a * n1 + b] = t - (tiny ? 0 : (qe[a]! * qdu[b]!) / S);
     }
   }
   if (tiny) {
