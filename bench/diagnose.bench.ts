@@ -9,6 +9,8 @@ import { parseOperator, simulateStudy } from '../src/simulate/index.js';
 import { fitStudy } from '../src/fit/index.js';
 import { diagnose } from '../src/diagnose.js';
 import type { Mat } from '../src/linalg/dense.js';
+import { spawnSync } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
 
 const copyMat = (m: Mat): Mat => ({ rows: m.rows, cols: m.cols, data: Float64Array.from(m.data) });
 
@@ -64,6 +66,17 @@ export async function run(): Promise<boolean> {
     console.log(row([c.name, cpu, runs[1]!.cpu, c.target, cpu / c.target, slow + (met ? '' : '  MISSED')], widths));
     console.log('    ' + Object.entries(times).filter(([, v]) => v >= 0.005).map(([k, v]) => `${k} ${v.toFixed(2)}`).join(' · '));
   }
+  // what every `kerneldx diagnose` process pays before any numerics: loading the CLI's modules (a
+  // child process, through tsx as here; the report modules are loaded only when a dossier is written)
+  const load = (extra: string) => {
+    const main = fileURLToPath(new URL('../src/cli/main.ts', import.meta.url));
+    const rep = fileURLToPath(new URL('../src/report/index.ts', import.meta.url));
+    const code = `const c0 = process.cpuUsage(); await import(${JSON.stringify(main)}); ${extra ? `await import(${JSON.stringify(rep)});` : ''} const c = process.cpuUsage(c0); console.log((c.user + c.system) / 1e6);`;
+    const r = spawnSync(process.execPath, ['--import', 'tsx', '--input-type=module', '-e', code], { encoding: 'utf8' });
+    return Number(r.stdout.trim());
+  };
+  const cli = load(''), withReport = load('report');
+  console.log(`CLI module load (child process, tsx): ${cli.toFixed(2)} s CPU; with the report modules also loaded ${withReport.toFixed(2)} s (ratio ${(cli / withReport).toFixed(2)})`);
   console.log(`peak RSS ${peakRssMb().toFixed(0)} MB`);
   return ok;
 }
