@@ -8,7 +8,7 @@
  * (the span model) the energy outside is extrapolated from the decay of the per-direction energies.
  */
 import type { Mat } from '../linalg/dense.js';
-import { zeros } from '../linalg/dense.js';
+import { zeros, matmul, matmulNT } from '../linalg/dense.js';
 import { eigSym } from '../linalg/decomp.js';
 import type { Prepared } from './prepare.js';
 
@@ -58,16 +58,15 @@ export function coverage(prep: Prepared, G: Mat, sigma: number, extrapolate: boo
   for (const v of GW.data) total += v * v;
   const energies: number[] = [];
   let identified = 0, excited = 0, idEnergy = 0;
-  const v = new Float64Array(n), gv = new Float64Array(rows);
+  // ĜW^{1/2} v_m = (ĜW^{1/2} Sᵀ) u_m / s_m for all m at once: two matrix products
+  const GU = matmul(matmulNT(GW, S), e.vectors);
   for (let m = 0; m < N; m++) {
     const s2 = e.values[m]!;
     if (!(s2 > 1e-12 * top)) break;
     excited++;
-    const s = Math.sqrt(s2);
-    v.fill(0);
-    for (let j = 0; j < N; j++) { const u = e.vectors.data[j * N + m]! / s; if (u === 0) continue; for (let c = 0; c < n; c++) v[c] += S.data[j * n + c]! * u; }
     let en = 0;
-    for (let i = 0; i < rows; i++) { let t = 0; for (let c = 0; c < n; c++) t += GW.data[i * n + c]! * v[c]!; gv[i] = t; en += t * t; }
+    for (let i = 0; i < rows; i++) { const t = GU.data[i * N + m]!; en += t * t; }
+    en /= s2;
     energies.push(en);
     if (s2 * en >= rows * sigma * sigma) { identified++; idEnergy += en; }
   }

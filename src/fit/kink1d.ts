@@ -23,8 +23,7 @@ import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, matmulTN } from '../linalg/dense.js';
 import type { Prepared } from './prepare.js';
 import { legendreBasis } from './basis.js';
-import { cholesky } from '../linalg/decomp.js';
-import { type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint } from './spectral.js';
+import { type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, RidgeSolver, type GcvPoint, semidefiniteCholesky } from './spectral.js';
 
 export type Constraint = 'none' | 'symmetric' | 'translation';
 
@@ -547,11 +546,10 @@ export function reducedSize(Kmax: number, cIn: number, K: number, constraint: Co
 
 /**
  * A lower bound on the GCV score of every size not yet tried by a search, at every λ: the nested tensor
- * model's residual at any λ is at least the unpenalised residual of the largest model containing it, and
- * that is at least the sum over sensors of each sensor's own unconstrained least-squares residual at Kmax
- * (a tensor model's row θ_i = Σ_a φ_a(x_i) Θ_a is one candidate of that sensor's problem), `rowBound`;
- * the effective parameters are at most the reduced size p_K, so GCV ≥ n · rowBound / (n − p_K)² at the
- * smallest remaining size (the bound grows with p_K). Infinity when nothing remains; 0 when no bound holds.
+ * model's residual at any λ is at least `rowBound`, a lower bound on the unpenalised residual of the largest
+ * model containing it (`unpenalisedResidual` of the full system); the effective parameters are at most the
+ * reduced size p_K, so GCV ≥ n · rowBound / (n − p_K)² at the smallest remaining size (the bound grows with
+ * p_K). Infinity when nothing remains; 0 when no bound holds.
  */
 export function remainingGcvBound(st: KinkSearch, rowBound: number): number {
   if (st.done) return Infinity;
@@ -560,31 +558,23 @@ export function remainingGcvBound(st: KinkSearch, rowBound: number): number {
 }
 
 /**
- * A lower bound on Σ_i min_θ ‖ỹ_i − X̃_i θ‖² over the sensors of output component p (each sensor's centred
- * data and its own unconstrained least squares in the Kmax features), from the stored per-sensor Grams. A
- * sensor whose Gram is not numerically positive definite (at the ends of the interval the sign features
- * are ±Z, collinear with the plain ones) contributes 0, which keeps the sum a lower bound.
+ * The residual of the unpenalised least-squares fit of the full system (the largest tensor model, every
+ * size's model nested in it, constraints only shrink it): min_θ ‖y − Xθ‖² = yᵀy − rᵀM⁺r, from a pivoted
+ * semidefinite Cholesky factor of M. A lower bound on every nested size's residual at every λ (up to the
+ * rounding of the dropped pivots, below p·ε·max diag M), hence with `remainingGcvBound` on their GCV.
  */
-export function rowwiseResidual(setup: KinkSetup, prep: Prepared, p: number): number {
-  const { F } = setup;
-  let total = 0;
-  const w = new Float64Array(F);
-  for (let i = 0; i < prep.nOut; i++) {
-    const c = p * prep.nOut + i;
-    const L = cholesky({ rows: F, cols: F, data: setup.rowQ.slice(c * F * F, (c + 1) * F * F) });
-    if (!L) continue;
-    // ‖L⁻¹ r‖² = rᵀ Q⁻¹ r by forward substitution
-    const r = setup.rowR;
-    let fit = 0;
-    for (let a = 0; a < F; a++) {
-      let t = r[c * F + a]!;
-      for (let b = 0; b < a; b++) t -= L.data[a * F + b]! * w[b]!;
-      w[a] = t / L.data[a * F + a]!;
-      fit += w[a]! * w[a]!;
-    }
-    total += Math.max(0, setup.rowYY[c]! - fit);
+export function unpenalisedResidual(sys: NormalSystem): number {
+  const { L, perm, rank } = semidefiniteCholesky(sys.M);
+  const n = sys.M.rows, w = new Float64Array(rank);
+  let fit = 0;
+  for (let j = 0; j < rank; j++) {
+    let t = sys.r[perm[j]!]!;
+    const o = j * n;
+    for (let v = 0; v < j; v++) t -= L[o + v]! * w[v]!;
+    w[j] = t / L[o + j]!;
+    fit += w[j]! * w[j]!;
   }
-  return total;
+  return Math.max(0, sys.yy - fit);
 }
 
 /** Choose (K, penalty order, λ) for one output component by GCV (a complete `KinkSearch` per order). */
@@ -640,7 +630,8 @@ export interface KinkFit {
   lambda: number;
   constraint: Constraint;
   map: ParamMap;
-  solver: RidgeSolver;
+  /** the Cholesky-factorised ridge system at (K, λ) (built on first use) */
+  solverOf: () => RidgeSolver;
   /** the reduced parameters */
   eta: Float64Array;
   /** θ in the layout of the system it was solved in (zeros beyond K) */
@@ -648,13 +639,28 @@ export interface KinkFit {
   gcv: GcvPoint;
 }
 
-export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: KinkChoice, constraint: Constraint, degree?: Float64Array): KinkFit {
+/**
+ * The fit at a chosen (K, order, jump, λ). With `sp`, the spectrum of that same reduced system kept by the size
+ * search, the solve reuses its Householder reduction, θ̄ = Q (T + λI)⁻¹ Qᵀ P^{-1/2} r (O(p²) instead of a new
+ * Cholesky factor); the Cholesky solver is built only when asked for (`ridgeSolverOf`).
+ */
+export function solveKink(sys: NormalSystem, Kf: number, cIn: number, choice: KinkChoice, constraint: Constraint, degree?: Float64Array, sp?: RidgeSpectrum): KinkFit {
   const Pfull = penaltyWeights(Kf, cIn, choice.order, choice.jump ?? 1, degree);
   const map = constraint === 'symmetric' ? symmetricMap(Kf, choice.K) : unconstrainedMap(Kf, cIn, choice.K);
+  const lambda = choice.gcv.lambda;
+  if (sp?.tri && sp.isqrtP && sp.tri.n === map.size) {
+    const is = sp.isqrtP, rb = reduceVec(map, sys.r);
+    for (let e = 0; e < rb.length; e++) rb[e] = rb[e]! * is[e]!;
+    const eta = sp.tri.fromTridiagonal(sp.tri.solveShifted(sp.tri.toTridiagonal(rb), lambda));
+    for (let e = 0; e < eta.length; e++) eta[e] = eta[e]! * is[e]!;
+    let solver: RidgeSolver | undefined;
+    const solverOf = () => { if (!solver) { const red = reduceSystem(sys, Pfull, map); solver = new RidgeSolver(red.sys, red.P, lambda); } return solver; };
+    return { K: choice.K, order: choice.order, jump: choice.jump ?? 1, lambda, constraint, map, solverOf, eta, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
+  }
   const red = reduceSystem(sys, Pfull, map);
-  const solver = new RidgeSolver(red.sys, red.P, choice.gcv.lambda);
+  const solver = new RidgeSolver(red.sys, red.P, lambda);
   const eta = solver.solveVec(red.sys.r);
-  return { K: choice.K, order: choice.order, jump: choice.jump ?? 1, lambda: choice.gcv.lambda, constraint, map, solver, eta, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
+  return { K: choice.K, order: choice.order, jump: choice.jump ?? 1, lambda, constraint, map, solverOf: () => solver, eta, theta: expand(map, eta, sys.r.length), gcv: choice.gcv };
 }
 
 export function expand(map: ParamMap, eta: Float64Array, P: number): Float64Array {
@@ -690,18 +696,23 @@ export function kernelRows(prep: Prepared, setup: KinkSetup, theta: Float64Array
   const th = new Float64Array(F);
   const s = prep.pointsIn.data, x = prep.pointsOut.data;
   const cols = nIn * cIn;
+  // Ψᵀ (K × nIn) so that each row of G is a sum of K contiguous axpys for the smooth and the sign part
+  const PsiT = new Float64Array(K * nIn);
+  for (let k = 0; k < nIn; k++) for (let b = 0; b < K; b++) PsiT[b * nIn + k] = Psi.data[k * Kmax + b]!;
+  const ra = new Float64Array(nIn), rb = new Float64Array(nIn);
   for (let i = 0; i < nOut; i++) {
     rowCoefficients(setup, theta, i, th, K);
-    const ro = (p * nOut + i) * cols;
+    const ro = (p * nOut + i) * cols, xi = x[i]!;
     for (let q = 0; q < cIn; q++) {
       const base = q * 2 * Kmax;
-      for (let k = 0; k < nIn; k++) {
-        const sg = Math.sign(x[i]! - s[k]!);
-        let v = 0;
-        const po = k * Kmax;
-        for (let b = 0; b < K; b++) v += Psi.data[po + b]! * (th[base + b]! + sg * th[base + Kmax + b]!);
-        G.data[ro + q * nIn + k] = v;
+      ra.fill(0); rb.fill(0);
+      for (let b = 0; b < K; b++) {
+        const ta = th[base + b]!, tb = th[base + Kmax + b]!, o = b * nIn;
+        if (ta !== 0) for (let k = 0; k < nIn; k++) ra[k] += PsiT[o + k]! * ta;
+        if (tb !== 0) for (let k = 0; k < nIn; k++) rb[k] += PsiT[o + k]! * tb;
       }
+      const go = ro + q * nIn;
+      for (let k = 0; k < nIn; k++) G.data[go + k] = ra[k]! + Math.sign(xi - s[k]!) * rb[k]!;
     }
   }
 }

@@ -13,11 +13,12 @@ import type { Rng } from '../linalg/rng.js';
 import type { Prepared } from './prepare.js';
 import {
   type Constraint, type KinkFit, type KinkSetup, type KinkChoice, type KinkBasis, type KinkSearch, setupKink, assembleFull, chooseJump, solveKink, kernelRows,
-  type ParamMap, startKinkSearch, advanceKinkSearch, remainingGcvBound, rowwiseResidual,
+  type ParamMap, startKinkSearch, advanceKinkSearch, remainingGcvBound, unpenalisedResidual,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
   symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
 } from './kink1d.js';
-import { RidgeSolver, type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, gcvAt } from './spectral.js';
+import { RidgeSolver, type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, gcvAt, semidefiniteCholesky } from './spectral.js';
+export { semidefiniteCholesky } from './spectral.js';
 import { fitPathTranslation } from './translation1d.js';
 import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
 
@@ -80,7 +81,7 @@ export function pilotFrequencies(prep: Prepared, G: Mat, count: number): number[
   const nOut = prep.nOut, nIn = prep.nIn, cols = G.cols;
   // segments: the columns of a subsample of input points (≤ 16 per component pair), outputs more than 2 spacings away
   const gap = (2 * L) / Math.max(2, nOut - 1);
-  const segs: { rows: number[]; vals: Float64Array }[] = [];
+  const segs: { rows: Int32Array; vals: Float64Array }[] = [];
   let total = 0;
   const step = Math.max(1, Math.floor(nIn / 16));
   for (let p = 0; p < prep.cOut; p++) for (let q = 0; q < prep.cIn; q++) for (let k = 0; k < nIn; k += step) {
@@ -90,7 +91,7 @@ export function pilotFrequencies(prep: Prepared, G: Mat, count: number): number[
       if (rows.length < 6) continue;
       const vals = Float64Array.from(rows, (i) => G.data[(p * nOut + i) * cols + q * nIn + k]!);
       for (const v of vals) total += v * v;
-      segs.push({ rows, vals });
+      segs.push({ rows: Int32Array.from(rows), vals });
     }
   }
   if (!(total > 0)) return [];
@@ -102,7 +103,8 @@ export function pilotFrequencies(prep: Prepared, G: Mat, count: number): number[
     let res = 0;
     for (const sg of segs) {
       let a11 = 0, a12 = 0, a22 = 0, b1 = 0, b2 = 0, yy = 0;
-      sg.rows.forEach((i, m) => { const c = cx[i]!, n = sx[i]!, y = sg.vals[m]!; a11 += c * c; a12 += c * n; a22 += n * n; b1 += c * y; b2 += n * y; yy += y * y; });
+      const rows = sg.rows, vals = sg.vals;
+      for (let m = 0; m < rows.length; m++) { const i = rows[m]!, c = cx[i]!, n = sx[i]!, y = vals[m]!; a11 += c * c; a12 += c * n; a22 += n * n; b1 += c * y; b2 += n * y; yy += y * y; }
       const det = a11 * a22 - a12 * a12;
       // residual = yy − bᵀ A⁻¹ b (a rank-deficient pair, at tiny ω on a short segment, keeps one function)
       const fitted = det > 1e-10 * a11 * a22 ? (a22 * b1 * b1 - 2 * a12 * b1 * b2 + a11 * b2 * b2) / det : Math.max(a11 > 0 ? (b1 * b1) / a11 : 0, a22 > 0 ? (b2 * b2) / a22 : 0);
@@ -132,44 +134,6 @@ function oscillatoryScore(prep: Prepared, sets: number[][], constraint: Constrai
     total += gcvMinimise(ridgeSpectrum(red.sys, red.P)).gcv * sys.nObs;
   }
   return total;
-}
-
-/**
- * A factor of a symmetric positive semi-definite A (row-major, n × n): A ≈ (ΠL)(ΠL)ᵀ with L lower triangular
- * (n × rank, stored n × n) and Π the permutation `perm` (row i of L belongs to row perm[i] of A). Cholesky with
- * diagonal pivoting, stopped when the largest remaining pivot is below n·ε·max diag(A) (semidefinite
- * Cholesky: Higham, Accuracy and Stability of Numerical Algorithms, 2002, §10.3).
- */
-export function semidefiniteCholesky(A: Mat): { L: Float64Array; perm: Int32Array; rank: number } {
-  const n = A.rows, W = new Float64Array(A.data), perm = Int32Array.from({ length: n }, (_, i) => i);
-  let top = 0;
-  for (let i = 0; i < n; i++) top = Math.max(top, W[i * n + i]!);
-  const tol = n * 2.2e-16 * top;
-  let rank = 0;
-  for (let j = 0; j < n; j++) {
-    let q = j;
-    for (let i = j + 1; i < n; i++) if (W[i * n + i]! > W[q * n + q]!) q = i;
-    if (!(W[q * n + q]! > tol)) break;
-    if (q !== j) {
-      // symmetric swap of rows and columns j and q
-      for (let k = 0; k < n; k++) { const t = W[j * n + k]!; W[j * n + k] = W[q * n + k]!; W[q * n + k] = t; }
-      for (let k = 0; k < n; k++) { const t = W[k * n + j]!; W[k * n + j] = W[k * n + q]!; W[k * n + q] = t; }
-      const t = perm[j]!; perm[j] = perm[q]!; perm[q] = t;
-    }
-    const d = Math.sqrt(W[j * n + j]!);
-    W[j * n + j] = d;
-    for (let i = j + 1; i < n; i++) { W[i * n + j] /= d; W[j * n + i] = W[i * n + j]!; }
-    // the trailing Schur complement, both triangles (the pivoting swaps rows and columns)
-    for (let i = j + 1; i < n; i++) {
-      const lij = W[i * n + j]!, io = i * n, jo = j * n;
-      if (lij === 0) continue;
-      for (let k = j + 1; k < n; k++) W[io + k] -= lij * W[jo + k]!;
-    }
-    rank = j + 1;
-  }
-  const L = new Float64Array(n * n);
-  for (let i = 0; i < n; i++) for (let v = 0; v <= Math.min(i, rank - 1); v++) L[i * n + v] = W[i * n + v]!;
-  return { L, perm, rank };
 }
 
 /** χ²_k draw: 2 × Gamma(k/2) by Marsaglia & Tsang, ACM Trans. Math. Softw. 26 (2000) 363–372 (shape < 1 boosted by u^{1/a}). */
@@ -263,7 +227,7 @@ function selectionReplicates(search: KinkSearch, sys: NormalSystem, f: KinkFit, 
       // no reduction usable: the fixed-hyper-parameter refit
       const rhs = reduceVec(f.map, g);
       for (let e = 0; e < rhs.length; e++) rhs[e] += zs[r]![selFit[e]!]!;
-      return { theta: expand(f.map, f.solver.solveVec(rhs), P0), K: f.K };
+      return { theta: expand(f.map, f.solverOf().solveVec(rhs), P0), K: f.K };
     }
     const x = bt.sp.tri!.fromTridiagonal(bt.sp.tri!.solveShifted(bt.b, bt.lambda));
     for (let e = 0; e < x.length; e++) x[e] = x[e]! * bt.sp.isqrtP![e]!;
@@ -293,7 +257,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   interface Family { basis: KinkBasis; setup: KinkSetup; searches: KinkSearch[]; systems: NormalSystem[]; fits: KinkFit[]; choices: KinkChoice[]; score: number }
   const settle = (fam: Omit<Family, 'fits' | 'choices' | 'score'>, old?: Family): Family => {
     const choices = fam.searches.map((st) => st.best!);
-    const fits = choices.map((c, p) => (old && old.choices[p] === c ? old.fits[p]! : solveKink(fam.systems[p]!, Kf, prep.cIn, c, constraint, fam.basis.degree)));
+    const fits = choices.map((c, p) => (old && old.choices[p] === c ? old.fits[p]! : solveKink(fam.systems[p]!, Kf, prep.cIn, c, constraint, fam.basis.degree, c.jump === undefined ? fam.searches[p]!.spectra.get(c.K) : undefined)));
     const score = choices.reduce((acc, c, p) => acc + c.gcv.gcv * fam.systems[p]!.nObs, 0);
     return { ...fam, fits, choices, score };
   };
@@ -349,7 +313,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
         // the plain family's final score is at least Σ_p n_p · min(best so far, bound on the deferred sizes)
         let plainLower = 0;
         plain.searches.forEach((st, p) => {
-          const rb = st.done ? 0 : rowwiseResidual(plain.setup, prep, p);
+          const rb = st.done ? 0 : unpenalisedResidual(st.sys);
           plainLower += Math.min(st.best!.gcv.gcv, remainingGcvBound(st, rb)) * plain.systems[p]!.nObs;
         });
         deferredSkipped = plainLower > enriched.score && plain.searches.some((st) => !st.done);
@@ -417,7 +381,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     if (smaller.length < 2) return;
     const [t1, t2] = smaller as [typeof smaller[0], typeof smaller[0]];
     const sysP = systems[p]!;
-    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint, setup.degree).theta;
+    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint, setup.degree, t.order === chosen.searches[p]!.order ? chosen.searches[p]!.spectra.get(t.K) : undefined).theta;
     const G1 = zeros(prep.nOut, prep.nIn * prep.cIn), G2 = zeros(prep.nOut, prep.nIn * prep.cIn), G0 = zeros(prep.nOut, prep.nIn * prep.cIn);
     const put = (th: Float64Array, M: Mat) => { const full = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn); kernelRows(prep, setup, th, p, full); M.data.set(full.data.subarray(p * prep.nOut * M.cols, (p + 1) * prep.nOut * M.cols)); };
     put(thetas[p]!, G0); put(at(t1), G1); put(at(t2), G2);
