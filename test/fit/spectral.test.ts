@@ -6,7 +6,9 @@
  * Golub & Van Loan, Matrix Computations, 4th ed., §4.8).
  */
 import { describe, it, expect } from 'vitest';
-import { eigenCoordinates } from '../../src/fit/spectral.js';
+import { readFileSync } from 'node:fs';
+import { eigenCoordinates, semidefiniteCholesky } from '../../src/fit/spectral.js';
+import { unpenalisedResidual } from '../../src/fit/kink1d.js';
 import { Rng } from '../../src/linalg/rng.js';
 
 const n = 12;
@@ -48,5 +50,28 @@ describe('Tridiagonal (kept Householder reduction)', () => {
       for (let a = 0; a < n; a++) for (let c = 0; c < n; c++) s += U[i * n + a]! * Tinv(a, c) * utb[c]!;
       expect(Math.abs(x[i]! - s)).toBeLessThan(1e-11);
     }
+  });
+});
+
+describe('pivoted semidefinite Cholesky and the unpenalised least-squares residual', () => {
+  // reference: numpy.linalg.lstsq on a 40 × 9 design of rank 6 (test/fixtures/unpenalised_residual.py)
+  const ref = JSON.parse(readFileSync(new URL('../fixtures/unpenalised_residual.json', import.meta.url), 'utf8')) as { M: number[][]; r: number[]; yy: number; nObs: number; rank: number; residual: number };
+  const p = ref.M.length;
+  const M = { rows: p, cols: p, data: Float64Array.from(ref.M.flat()) };
+  it('finds the rank and reproduces M = (ΠL)(ΠL)ᵀ (Higham 2002 §10.3)', () => {
+    const { L, perm, rank } = semidefiniteCholesky(M);
+    expect(rank).toBe(ref.rank);
+    let err = 0, norm = 0;
+    for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) {
+      let s = 0;
+      for (let v = 0; v < rank; v++) s += L[i * p + v]! * L[j * p + v]!;
+      err = Math.max(err, Math.abs(s - M.data[perm[i]! * p + perm[j]!]!));
+      norm = Math.max(norm, Math.abs(M.data[i * p + j]!));
+    }
+    expect(err).toBeLessThan(1e-10 * norm);
+  });
+  it('residual yᵀy − rᵀM⁺r equals numpy lstsq residual', () => {
+    const res = unpenalisedResidual({ M, r: Float64Array.from(ref.r), yy: ref.yy, nObs: ref.nObs });
+    expect(Math.abs(res - ref.residual)).toBeLessThan(1e-8 * ref.yy);
   });
 });
