@@ -80,55 +80,22 @@ function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: 
   }
   // column-major working copy for Householder QR
   const A = new Float64Array(M * m);
-  for (let j = 0; j < m; j++) {
-    const cj = j * M, fj = fs[j]!, zj = zs[j]!;
-    for (let i = 0; i < M; i++) A[cj + i] = (F[i]! - fj) / (Z[i]! - zj);
-  }
+  loewnerColumns(A, Z, F, zs, fs);
   // column pivoting (Businger & Golub 1965): the largest remaining column first, so that R is
   // graded and the Jacobi iteration below converges in few sweeps (Drmač & Veselić 2008)
   const perm = Int32Array.from({ length: m }, (_, j) => j);
   const cn = new Float64Array(m);
-  for (let j = 0; j < m; j++) { let t = 0; for (let i = 0; i < M; i++) t += A[j * M + i]! * A[j * M + i]!; cn[j] = t; }
+  columnNorms2(A, M, m, cn);
   const exact = Float64Array.from(cn);
   const R = matZeros(m, m);
   const v = new Float64Array(M);
+  // (small single-loop kernels: each is optimised early on complete type feedback, which keeps
+  // a cold process from recompiling one large function after every newly taken branch)
   for (let k = 0; k < m; k++) {
-    let piv = k;
-    for (let j = k + 1; j < m; j++) if (cn[j]! > cn[piv]!) piv = j;
-    if (piv !== k) {
-      const ck = k * M, cp = piv * M;
-      for (let i = 0; i < M; i++) { const t = A[ck + i]!; A[ck + i] = A[cp + i]!; A[cp + i] = t; }
-      const t = cn[k]!; cn[k] = cn[piv]!; cn[piv] = t;
-      const te = exact[k]!; exact[k] = exact[piv]!; exact[piv] = te;
-      const pk = perm[k]!; perm[k] = perm[piv]!; perm[piv] = pk;
-    }
-    const ck = k * M;
-    let nrm = 0;
-    for (let i = k; i < M; i++) nrm += A[ck + i]! * A[ck + i]!;
-    nrm = Math.sqrt(nrm);
-    if (nrm === 0) { continue; }
-    const alpha = A[ck + k]! > 0 ? -nrm : nrm;
-    for (let i = k; i < M; i++) v[i] = A[ck + i]!;
-    v[k] = v[k]! - alpha;
-    let vv = 0;
-    for (let i = k; i < M; i++) vv += v[i]! * v[i]!;
-    A[ck + k] = alpha;
-    for (let i = k + 1; i < M; i++) A[ck + i] = 0;
-    if (vv === 0) continue;
-    for (let j = k + 1; j < m; j++) {
-      const cj = j * M;
-      let dot = 0;
-      for (let i = k; i < M; i++) dot += v[i]! * A[cj + i]!;
-      const t = (2 * dot) / vv;
-      for (let i = k; i < M; i++) A[cj + i] = A[cj + i]! - t * v[i]!;
-      // remaining column norm below row k: downdated, recomputed once cancellation looms (as LAPACK's xGEQP3)
-      cn[j] = cn[j]! - A[cj + k]! * A[cj + k]!;
-      if (cn[j]! <= 1e-4 * exact[j]!) {
-        let s2 = 0;
-        for (let i = k + 1; i < M; i++) s2 += A[cj + i]! * A[cj + i]!;
-        cn[j] = s2; exact[j] = s2;
-      }
-    }
+    const piv = argmaxFrom(cn, k);
+    if (piv !== k) swapColumns(A, M, k, piv, cn, exact, perm);
+    const vv = householderColumn(A, M, k, v);
+    if (vv !== 0) reflectRest(A, M, m, k, v, vv, cn, exact);
   }
   for (let i = 0; i < m; i++) for (let j = i; j < m; j++) R.data[i * m + j] = A[j * M + i]!;
   const y = smallestRightSingular(R);
@@ -136,6 +103,73 @@ function loewnerWeights(Z: Float64Array, F: Float64Array, zs: Float64Array, fs: 
   const w = new Float64Array(m);
   for (let j = 0; j < m; j++) w[perm[j]!] = y[j]!;
   return w;
+}
+
+/** A[:, j] = (F − f_j)/(Z − z_j), column-major. */
+function loewnerColumns(A: Float64Array, Z: Float64Array, F: Float64Array, zs: Float64Array, fs: Float64Array): void {
+  const M = Z.length, m = zs.length;
+  for (let j = 0; j < m; j++) {
+    const cj = j * M, fj = fs[j]!, zj = zs[j]!;
+    for (let i = 0; i < M; i++) A[cj + i] = (F[i]! - fj) / (Z[i]! - zj);
+  }
+}
+
+function columnNorms2(A: Float64Array, M: number, m: number, cn: Float64Array): void {
+  for (let j = 0; j < m; j++) { let t = 0; const cj = j * M; for (let i = 0; i < M; i++) t += A[cj + i]! * A[cj + i]!; cn[j] = t; }
+}
+
+function argmaxFrom(a: Float64Array, k: number): number {
+  let piv = k;
+  for (let j = k + 1; j < a.length; j++) if (a[j]! > a[piv]!) piv = j;
+  return piv;
+}
+
+function swapColumns(A: Float64Array, M: number, k: number, p: number, cn: Float64Array, exact: Float64Array, perm: Int32Array): void {
+  const ck = k * M, cp = p * M;
+  for (let i = 0; i < M; i++) { const t = A[ck + i]!; A[ck + i] = A[cp + i]!; A[cp + i] = t; }
+  const t = cn[k]!; cn[k] = cn[p]!; cn[p] = t;
+  const te = exact[k]!; exact[k] = exact[p]!; exact[p] = te;
+  const pk = perm[k]!; perm[k] = perm[p]!; perm[p] = pk;
+}
+
+/**
+ * Householder reflector of column k below row k (column-major, M rows): v (rows k…) and the column
+ * replaced by (…, α, 0, …). Returns vᵀv (0: nothing to reflect).
+ */
+function householderColumn(A: Float64Array, M: number, k: number, v: Float64Array): number {
+  const ck = k * M;
+  let nrm = 0;
+  for (let i = k; i < M; i++) nrm += A[ck + i]! * A[ck + i]!;
+  nrm = Math.sqrt(nrm);
+  if (nrm === 0) return 0;
+  const alpha = A[ck + k]! > 0 ? -nrm : nrm;
+  for (let i = k; i < M; i++) v[i] = A[ck + i]!;
+  v[k] = v[k]! - alpha;
+  let vv = 0;
+  for (let i = k; i < M; i++) vv += v[i]! * v[i]!;
+  A[ck + k] = alpha;
+  for (let i = k + 1; i < M; i++) A[ck + i] = 0;
+  return vv;
+}
+
+/** Apply the reflector v of step k to columns k+1… and downdate their remaining norms. */
+function reflectRest(A: Float64Array, M: number, m: number, k: number, v: Float64Array, vv: number, cn: Float64Array, exact: Float64Array): void {
+  for (let j = k + 1; j < m; j++) {
+    const cj = j * M;
+    let dot = 0;
+    for (let i = k; i < M; i++) dot += v[i]! * A[cj + i]!;
+    const t = (2 * dot) / vv;
+    for (let i = k; i < M; i++) A[cj + i] = A[cj + i]! - t * v[i]!;
+    // remaining column norm below row k: downdated, recomputed once cancellation looms (as LAPACK's xGEQP3)
+    cn[j] = cn[j]! - A[cj + k]! * A[cj + k]!;
+    if (cn[j]! <= 1e-4 * exact[j]!) { const s2 = tailNorm2(A, cj, k + 1, M); cn[j] = s2; exact[j] = s2; }
+  }
+}
+
+function tailNorm2(A: Float64Array, c: number, from: number, M: number): number {
+  let s2 = 0;
+  for (let i = from; i < M; i++) s2 += A[c + i]! * A[c + i]!;
+  return s2;
 }
 
 /**
@@ -155,6 +189,25 @@ function smallestRightSingular(R: Mat): Float64Array {
   const beta = new Float64Array(m);
   // U: columns of X = R₂ᵀ (column-major), V: accumulated rotations
   const U = new Float64Array(m * m), V = new Float64Array(m * m);
+  squareHouseholder(T, m, beta, U);
+  // X[i][j] = R₂[j][i] = T[i·m + j] for i > j
+  for (let j = 0; j < m; j++) { for (let i = j + 1; i < m; i++) U[j * m + i] = T[i * m + j]!; V[j * m + j] = 1; }
+  const d = new Float64Array(m);
+  for (let sweep = 0; sweep < 30; sweep++) {
+    columnNorms2(U, m, m, d);
+    if (!jacobiSweep(U, V, d, m)) break;
+  }
+  columnNorms2(U, m, m, d);
+  let jmin = 0;
+  for (let j = 1; j < m; j++) if (d[j]! < d[jmin]!) jmin = j;
+  // w = Q₂ v = H₀ H₁ ⋯ H_{m−1} v
+  const w = V.slice(jmin * m, (jmin + 1) * m);
+  applyReflectorsBack(T, beta, m, w);
+  return w;
+}
+
+/** Householder QR of the m×m column-major T in place (reflectors kept from the diagonal down, β_k = 2/vᵀv); R₂'s diagonal goes to U[k·m+k]. */
+function squareHouseholder(T: Float64Array, m: number, beta: Float64Array, U: Float64Array): void {
   for (let k = 0; k < m; k++) {
     const ck = k * m;
     let nrm = 0;
@@ -167,47 +220,47 @@ function smallestRightSingular(R: Mat): Float64Array {
     let vv = v0 * v0;
     for (let i = k + 1; i < m; i++) vv += T[ck + i]! * T[ck + i]!;
     beta[k] = vv === 0 ? 0 : 2 / vv;
-    for (let j = k + 1; j < m; j++) {
-      const cj = j * m;
-      let dot = 0;
-      for (let i = k; i < m; i++) dot += T[ck + i]! * T[cj + i]!;
-      const t = beta[k]! * dot;
-      for (let i = k; i < m; i++) T[cj + i] = T[cj + i]! - t * T[ck + i]!;
-    }
+    for (let j = k + 1; j < m; j++) reflectColumn(T, ck, j * m, k, m, beta[k]!);
     U[k * m + k] = alpha; // R₂[k][k]
   }
-  // X[i][j] = R₂[j][i] = T[i·m + j] for i > j
-  for (let j = 0; j < m; j++) { for (let i = j + 1; i < m; i++) U[j * m + i] = T[i * m + j]!; V[j * m + j] = 1; }
-  const d = new Float64Array(m);
-  for (let sweep = 0; sweep < 30; sweep++) {
-    for (let j = 0; j < m; j++) { let s = 0; for (let i = 0; i < m; i++) s += U[j * m + i]! * U[j * m + i]!; d[j] = s; }
-    let rotated = false;
-    for (let p = 0; p < m - 1; p++) {
-      for (let q = p + 1; q < m; q++) {
-        const up = p * m, uq = q * m;
-        let g = 0;
-        for (let i = 0; i < m; i++) g += U[up + i]! * U[uq + i]!;
-        const a = d[p]!, b = d[q]!;
-        if (g === 0 || Math.abs(g) <= m * EPS * Math.sqrt(a * b)) continue;
-        rotated = true;
-        const zeta = (b - a) / (2 * g);
-        const t = (zeta >= 0 ? 1 : -1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
-        const c = 1 / Math.sqrt(1 + t * t), s = c * t;
-        for (let i = 0; i < m; i++) { const x = U[up + i]!, y = U[uq + i]!; U[up + i] = c * x - s * y; U[uq + i] = s * x + c * y; }
-        for (let i = 0; i < m; i++) { const x = V[up + i]!, y = V[uq + i]!; V[up + i] = c * x - s * y; V[uq + i] = s * x + c * y; }
-        d[p] = a - t * g; d[q] = b + t * g;
-      }
+}
+
+/** Column at c ← (I − β v vᵀ) column, v = the column at ck from row k down. */
+function reflectColumn(T: Float64Array, ck: number, c: number, k: number, m: number, b: number): void {
+  let dot = 0;
+  for (let i = k; i < m; i++) dot += T[ck + i]! * T[c + i]!;
+  const t = b * dot;
+  for (let i = k; i < m; i++) T[c + i] = T[c + i]! - t * T[ck + i]!;
+}
+
+/** One cyclic sweep of one-sided Jacobi rotations over the column pairs of U (rotations accumulated in V); false when no pair needed one. */
+function jacobiSweep(U: Float64Array, V: Float64Array, d: Float64Array, m: number): boolean {
+  let rotated = false;
+  for (let p = 0; p < m - 1; p++) {
+    for (let q = p + 1; q < m; q++) {
+      const up = p * m, uq = q * m;
+      let g = 0;
+      for (let i = 0; i < m; i++) g += U[up + i]! * U[uq + i]!;
+      const a = d[p]!, b = d[q]!;
+      if (g === 0 || Math.abs(g) <= m * EPS * Math.sqrt(a * b)) continue;
+      rotated = true;
+      const zeta = (b - a) / (2 * g);
+      const t = (zeta >= 0 ? 1 : -1) / (Math.abs(zeta) + Math.sqrt(1 + zeta * zeta));
+      const c = 1 / Math.sqrt(1 + t * t), s = c * t;
+      rotatePair(U, up, uq, m, c, s);
+      rotatePair(V, up, uq, m, c, s);
+      d[p] = a - t * g; d[q] = b + t * g;
     }
-    if (!rotated) break;
   }
-  let jmin = 0, best = Infinity;
-  for (let j = 0; j < m; j++) {
-    let nrm = 0;
-    for (let i = 0; i < m; i++) nrm += U[j * m + i]! * U[j * m + i]!;
-    if (nrm < best) { best = nrm; jmin = j; }
-  }
-  // w = Q₂ v = H₀ H₁ ⋯ H_{m−1} v
-  const w = V.slice(jmin * m, (jmin + 1) * m);
+  return rotated;
+}
+
+function rotatePair(X: Float64Array, up: number, uq: number, m: number, c: number, s: number): void {
+  for (let i = 0; i < m; i++) { const x = X[up + i]!, y = X[uq + i]!; X[up + i] = c * x - s * y; X[uq + i] = s * x + c * y; }
+}
+
+/** w ← H₀ H₁ ⋯ H_{m−1} w with the reflectors stored in T by `squareHouseholder`. */
+function applyReflectorsBack(T: Float64Array, beta: Float64Array, m: number, w: Float64Array): void {
   for (let k = m - 1; k >= 0; k--) {
     if (beta[k] === 0) continue;
     const ck = k * m;
@@ -216,7 +269,6 @@ function smallestRightSingular(R: Mat): Float64Array {
     const t = beta[k]! * dot;
     for (let i = k; i < m; i++) w[i] = w[i]! - t * T[ck + i]!;
   }
-  return w;
 }
 
 function lastColumn(V: Mat, s: Float64Array): Float64Array {
