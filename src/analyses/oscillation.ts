@@ -189,15 +189,27 @@ const toTheta = (ks: number) => Math.sign(ks) * ks * ks;
 function refine(pr: Prep, p0: number, ks0: number, dp0: number, dk0: number, maxIt: number): { p: number; ks: number; f: number } {
   let p = p0, ks = ks0, f = objective(pr, p, toTheta(ks));
   let dp = dp0, dk = dk0;
+  // trial points already known not to improve (the centre, the previous centre, repeats when dp = 0)
+  // are skipped: the objective is deterministic, so the search path is the same with fewer evaluations
+  let prevP = NaN, prevKs = NaN;
+  const triedP = new Float64Array(8), triedK = new Float64Array(8);
   for (let it = 0; it < maxIt && (dp > 1e-7 * (1 + Math.abs(p)) || dk > 1e-7 * (1 + Math.abs(ks))); it++) {
-    let moved = false;
+    let moved = false, tried = 0;
     for (const [cp, ck] of [[dp, 0], [-dp, 0], [0, dk], [0, -dk], [dp, dk], [-dp, -dk], [dp, -dk], [-dp, dk]] as const) {
-      const fn = objective(pr, p + cp, toTheta(ks + ck));
-      if (fn < f) { f = fn; p += cp; ks += ck; moved = true; break; }
+      const pt = p + cp, kt = ks + ck;
+      if ((pt === p && kt === ks) || (pt === prevP && kt === prevKs) || seen(triedP, triedK, tried, pt, kt)) continue;
+      triedP[tried] = pt; triedK[tried] = kt; tried++;
+      const fn = objective(pr, pt, toTheta(kt));
+      if (fn < f) { f = fn; prevP = p; prevKs = ks; p = pt; ks = kt; moved = true; break; }
     }
     if (!moved) { dp /= 2; dk /= 2; }
   }
   return { p, ks, f };
+}
+
+function seen(ps: Float64Array, ks: Float64Array, n: number, p: number, k: number): boolean {
+  for (let i = 0; i < n; i++) if (ps[i] === p && ks[i] === k) return true;
+  return false;
 }
 
 /** Fit (p, θ) on the segments of one matrix; `start` skips the grid search (used for replicates). */
