@@ -182,8 +182,23 @@ export function jumpProfile(G: Mat, x: Float64Array, sIn: Float64Array, lo: numb
   return out;
 }
 
-/** The local evidence profiles of one kernel matrix G (block (0,0), 1-D). */
+const profileCache = new WeakMap<Mat, { kernel: Kernel; centers: number; profiles: Profiles }>();
+
+/**
+ * The local evidence profiles of one kernel matrix G (block (0,0), 1-D). Cached per matrix (and
+ * kernel and centre count): interfaces and regions ask for the same kernel's and replicates'
+ * profiles. The result is shared; callers must not modify it.
+ */
 export function localProfiles(kernel: Kernel, G: Mat, opts: { centers?: number } = {}): Profiles {
+  const nc = opts.centers ?? 56;
+  const hit = profileCache.get(G);
+  if (hit && hit.kernel === kernel && hit.centers === nc) return hit.profiles;
+  const profiles = computeProfiles(kernel, G, nc);
+  profileCache.set(G, { kernel, centers: nc, profiles });
+  return profiles;
+}
+
+function computeProfiles(kernel: Kernel, G: Mat, nc: number): Profiles {
   const [lo, hi] = bounds1d(kernel);
   const L = hi - lo;
   const nOut = kernel.pointsOut.rows, nIn = kernel.pointsIn.rows;
@@ -192,7 +207,6 @@ export function localProfiles(kernel: Kernel, G: Mat, opts: { centers?: number }
   // centres stay one patch (plus the smeared-kink gap) away from the ends: near a boundary the
   // one-sided windows are truncated and the evidence is unreliable
   const edge = 0.08 * L;
-  const nc = opts.centers ?? 56;
   const centers = Float64Array.from({ length: nc }, (_, k) => lo + edge + ((L - 2 * edge) * (k + 0.5)) / nc);
   const features: Record<string, Float64Array> = {};
   const blur: Record<string, number> = {};
