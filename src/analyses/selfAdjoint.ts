@@ -174,13 +174,14 @@ export function driftTest(kernel: Kernel, reps: Mat[]): DriftTest | null {
   const h = L / (n - 1);
   const dmin = Math.max(2 * h, 0.01 * L);
   // windows of two cells (half-width one cell) so each has pairs spanning its cell
-  const slope = (M: Mat): Float64Array => asymmetrySlope(sorted(M), x, centers, cell, dmin);
-  const profile = slope(kernel.G);
+  const G0 = sorted(kernel.G);
+  let profile: Float64Array, R: Float64Array[] = [];
+  if (reps.length < 2) profile = asymmetrySlope(G0, x, centers, cell, dmin);
+  else ({ profile, reps: R } = windowSlopes(G0, reps.map(sorted), x, centers, cell, dmin));
   const ok = Array.from(profile, (v) => Number.isFinite(v));
   const P = ok.reduce((s, good, k) => (good ? s + Math.abs(profile[k]!) * cell : s), 0);
   let floor = NaN;
-  if (reps.length >= 2) {
-    const R = reps.map(slope);
+  if (R.length >= 2) {
     const f = Math.sqrt(R.length / (R.length - 1));
     const mu = new Float64Array(K), cnt = new Float64Array(K);
     for (const r of R) for (let k = 0; k < K; k++) if (Number.isFinite(r[k]!)) { mu[k] += r[k]!; cnt[k]++; }
@@ -195,6 +196,55 @@ export function driftTest(kernel: Kernel, reps: Mat[]): DriftTest | null {
     floor = Math.sqrt(ss / R.length);
   }
   return { peclet: P, floor, profile, covered: ok.every(Boolean) };
+}
+
+/**
+ * Local slopes of y = log(G(x,s)/G(s,x)) against Δ = x − s per window (the identity of
+ * `asymmetrySlope`), weighted by 1/var(y) over the replicates instead of by the entries' size:
+ * weights that do not move with the estimate's own noise keep the slope unbiased where G is
+ * small (size weights attenuate it toward 0 near Dirichlet ends), and make the slope linear in
+ * y, so the replicates' slopes (same pairs, same weights) give its honest spread. Pairs: both
+ * entries above 3× their replicate spread with one sign (as in transport's driftRate).
+ */
+function windowSlopes(G: Mat, reps: Mat[], x: Float64Array, centers: Float64Array, w: number, dmin: number): { profile: Float64Array; reps: Float64Array[] } {
+  const n = x.length, K = centers.length, R = reps.length;
+  const profile = new Float64Array(K).fill(NaN);
+  const out = reps.map(() => new Float64Array(K).fill(NaN));
+  const yr = new Float64Array(R);
+  for (let k = 0; k < K; k++) {
+    const c = centers[k]!;
+    let num = 0, den = 0, cnt = 0;
+    const rn = new Float64Array(R), rd = new Float64Array(R);
+    for (let i = 0; i < n; i++) {
+      if (Math.abs(x[i]! - c) > w) continue;
+      for (let j = 0; j < i; j++) {
+        const d = x[i]! - x[j]!;
+        if (d < dmin || Math.abs(x[j]! - c) > w) continue;
+        const a = G.data[i * n + j]!, b = G.data[j * n + i]!;
+        if (!(a * b > 0)) continue;
+        let sa = 0, sb = 0, m = 0, my = 0, vy = 0;
+        for (let r = 0; r < R; r++) {
+          const A = reps[r]!.data[i * n + j]!, B = reps[r]!.data[j * n + i]!;
+          sa += (A - a) ** 2; sb += (B - b) ** 2;
+          yr[r] = A * B > 0 ? Math.log(A / B) : NaN;
+          if (A * B > 0) { m++; my += yr[r]!; }
+        }
+        if (Math.abs(a + b) <= 6 * Math.sqrt((sa + sb) / (2 * R)) || m < 2) continue;
+        my /= m;
+        for (let r = 0; r < R; r++) if (Number.isFinite(yr[r]!)) vy += (yr[r]! - my) ** 2;
+        vy /= m - 1;
+        if (!(vy > 0)) vy = 1e-30; // exact replicates: equal weights in effect (all pairs agree)
+        const wt = 1 / vy, y = Math.log(a / b);
+        num += wt * y * d; den += wt * d * d; cnt++;
+        for (let r = 0; r < R; r++) { const v = Number.isFinite(yr[r]!) ? yr[r]! : y; rn[r] += wt * v * d; rd[r] += wt * d * d; }
+      }
+    }
+    if (cnt >= 8 && den > 0) {
+      profile[k] = num / den;
+      for (let r = 0; r < R; r++) out[r]![k] = rn[r]! / rd[r]!;
+    }
+  }
+  return { profile, reps: out };
 }
 
 export const selfAdjoint: Analysis<F> = {
