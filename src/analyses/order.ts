@@ -52,17 +52,6 @@ function sqrtScaleRows(M: Mat, w: Float64Array): Mat {
   return out;
 }
 
-/** The matrices (same number of columns) one below the other. */
-function stackRows(ms: Mat[]): Mat {
-  const cols = ms[0]!.cols;
-  let rows = 0;
-  for (const m of ms) rows += m.rows;
-  const out = zeros(rows, cols);
-  let off = 0;
-  for (const m of ms) { out.data.set(m.data.subarray(0, m.rows * cols), off); off += m.rows * cols; }
-  return { rows, cols, data: out.data };
-}
-
 /**
  * Leading singular values of W^{1/2} G W^{1/2} with bootstrap errors and the trustworthy
  * count. Cached per kernel matrix (order, locality, oscillation and self_adjoint share it).
@@ -81,19 +70,10 @@ export function kernelSpectrum(kernel: Kernel, reps: Mat[], identifiedRank?: num
   const perturbed: Float64Array[] = [];
   const devV: Mat[] = [];
   const err = new Float64Array(K);
-  // the replicates' D·W^{1/2}V as few products of stacked deviations (rows are independent in matmul,
-  // so each block equals its own product; long calls instead of one per replicate; stacks of at
-  // most ~4·10⁶ entries, so that large kernels are not copied whole)
-  const per = devs.length ? Math.max(1, Math.floor(4e6 / (devs[0]!.rows * devs[0]!.cols))) : 1;
-  for (let r0 = 0; r0 < devs.length; r0 += per) {
-    const group = devs.slice(r0, r0 + per);
-    const P = group.length > 1 ? matmul(stackRows(group), Vw) : matmul(group[0]!, Vw);
-    let off = 0;
-    for (const D of group) { devV.push({ rows: D.rows, cols: K, data: P.data.subarray(off, off + D.rows * K) }); off += D.rows * K; }
-  }
-  for (let r = 0; r < devs.length; r++) {
-    const D = devs[r]!, DV = devV[r]!;
+  for (const D of devs) {
     // δσ_k = u_kᵀ (W^{1/2} D W^{1/2}) v_k = (W^{1/2}u_k)ᵀ D (W^{1/2}v_k)
+    const DV = matmul(D, Vw);
+    devV.push(DV);
     const p = new Float64Array(K);
     for (let k = 0; k < K; k++) { let t = 0; for (let i = 0; i < D.rows; i++) t += Uw.data[i * K + k]! * DV.data[i * K + k]!; p[k] = sv.s[k]! + t; err[k] += t * t; }
     perturbed.push(p);
