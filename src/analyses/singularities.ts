@@ -63,41 +63,60 @@ function medianSpacing(x: Float64Array): number {
   return d.length ? d[Math.floor(d.length / 2)]! : 0;
 }
 
+/** Indices of the samples with finite x and f, sorted by x. */
+function finiteSorted(xIn: ArrayLike<number>, fIn: ArrayLike<number>): number[] {
+  const keep: number[] = [];
+  for (let i = 0; i < fIn.length; i++) if (Number.isFinite(fIn[i]!) && Number.isFinite(xIn[i]!)) keep.push(i);
+  keep.sort((a, b) => xIn[a]! - xIn[b]!);
+  return keep;
+}
+
+function maxAbsAt(f: ArrayLike<number>, idx: number[]): number {
+  let m = 0;
+  for (const i of idx) m = Math.max(m, Math.abs(f[i]!));
+  return m;
+}
+
+/** Samples i ≡ parity (mod 2). */
+function everyOther(x: Float64Array, f: Float64Array, parity: number): { x: number[]; f: number[] } {
+  const t = { x: [] as number[], f: [] as number[] };
+  for (let i = parity; i < x.length; i += 2) { t.x.push(x[i]!); t.f.push(f[i]!); }
+  return t;
+}
+
+/** row[off + i] = (ev_i − f_i)², Infinity where not finite. */
+function squaredErrors(ev: Float64Array, f: number[], row: Float64Array, off: number): void {
+  for (let i = 0; i < ev.length; i++) { const e = ev[i]! - f[i]!; row[off + i] = Number.isFinite(e) ? e * e : Infinity; }
+}
+
 /**
  * Cross-validated AAA on one function f(x) (x sorted ascending) and the pole clusters that
  * stand above the noise, inside the segment (minus a margin at each end).
  */
 export function scanPoles(xIn: ArrayLike<number>, fIn: ArrayLike<number>, opts: ScanOptions): PoleScan {
-  const keep: number[] = [];
-  for (let i = 0; i < fIn.length; i++) if (Number.isFinite(fIn[i]!) && Number.isFinite(xIn[i]!)) keep.push(i);
-  keep.sort((a, b) => xIn[a]! - xIn[b]!);
+  const keep = finiteSorted(xIn, fIn);
   const x = Float64Array.from(keep, (i) => xIn[i]!);
   const n = x.length;
   const none: PoleScan = { clusters: [], terms: 0, noise: 1, poles: [] };
   if (n < 12) return none;
-  let fmax = 0;
-  for (const i of keep) fmax = Math.max(fmax, Math.abs(fIn[i]!));
+  const fmax = maxAbsAt(fIn, keep);
   if (!(fmax > 0)) return none;
   const f = Float64Array.from(keep, (i) => fIn[i]! / fmax);
   const L = opts.hi - opts.lo;
   const h = medianSpacing(x);
   const mmax = Math.max(2, Math.min(opts.maxTerms ?? 24, Math.floor(n / 4)));
   // even/odd split cross-validation of the number of support points
-  const even = { x: [] as number[], f: [] as number[] }, odd = { x: [] as number[], f: [] as number[] };
-  for (let i = 0; i < n; i++) { const t = i % 2 ? odd : even; t.x.push(x[i]!); t.f.push(f[i]!); }
+  const even = everyOther(x, f, 0), odd = everyOther(x, f, 1);
   // robust score: the median squared prediction error (÷ 0.4549, the median of χ²₁, so that
   // it estimates a variance); isolated blow-ups next to spurious real-axis poles do not decide
   // (typed arrays: the native numeric sort, no comparator calls)
   const sq: Float64Array[] = Array.from({ length: mmax }, () => new Float64Array(n));
   let off = 0;
+  // (the loops live in small helpers: scanPoles itself, called a few dozen times, then stays
+  // unoptimised instead of costing a large optimising compile with everything inlined)
   for (const [tr, te] of [[even, odd], [odd, even]] as const) {
     const seq = aaaSequence(tr.x, tr.f, mmax, 1e-13);
-    for (let m = 0; m < mmax; m++) {
-      const r = seq[Math.min(m, seq.length - 1)]!;
-      const ev = evaluate(r, te.x);
-      const row = sq[m]!;
-      for (let i = 0; i < ev.length; i++) { const e = ev[i]! - te.f[i]!; row[off + i] = Number.isFinite(e) ? e * e : Infinity; }
-    }
+    for (let m = 0; m < mmax; m++) squaredErrors(evaluate(seq[Math.min(m, seq.length - 1)]!, te.x), te.f, sq[m]!, off);
     off += te.x.length;
   }
   const cv = sq.map((v) => { v.sort(); return v[Math.floor(v.length / 2)]! / 0.4549; });

@@ -9,8 +9,15 @@ export function eigenvaluesReal(Ain: Float64Array, n: number): { re: Float64Arra
   const a = new Float64Array(Ain); // row-major copy, a[i*n+j]
   const wr = new Float64Array(n), wi = new Float64Array(n);
   if (n === 0) return { re: wr, im: wi };
+  // two functions (reduction, iteration), each optimised on its own complete type feedback in a cold process
+  hessenberg(a, n);
+  francisQR(a, n, wr, wi);
+  return { re: wr, im: wi };
+}
+
+/** Householder reduction of the row-major n×n `a` to upper Hessenberg form in place (orthes). */
+function hessenberg(a: Float64Array, n: number): void {
   const A = (i: number, j: number) => a[i * n + j]!;
-  // Householder reduction to Hessenberg form (orthes)
   const ort = new Float64Array(n);
   for (let m = 1; m < n - 1; m++) {
     let scale = 0;
@@ -37,6 +44,11 @@ export function eigenvaluesReal(Ain: Float64Array, n: number): { re: Float64Arra
     a[m * n + m - 1] = scale * g;
     for (let i = m + 1; i < n; i++) a[i * n + m - 1] = 0;
   }
+}
+
+/** Eigenvalues of the upper Hessenberg `a` (destroyed) by the Francis double-shift QR iteration (hqr). */
+function francisQR(a: Float64Array, n: number, wr: Float64Array, wi: Float64Array): void {
+  const A = (i: number, j: number) => a[i * n + j]!;
   // Francis double-shift QR on the Hessenberg matrix (hqr)
   let anorm = 0;
   for (let i = 0; i < n; i++) for (let j = Math.max(i - 1, 0); j < n; j++) anorm += Math.abs(A(i, j));
@@ -130,6 +142,5 @@ export function eigenvaluesReal(Ain: Float64Array, n: number): { re: Float64Arra
       }
     } while (l < nn - 1);
   }
-  return { re: wr, im: wi };
 }
 
