@@ -95,23 +95,35 @@ function smallestEig3(S: number[]): number[] {
   return [V[j]!, V[3 + j]!, V[6 + j]!];
 }
 
+/**
+ * S += Σ v vᵀ over the triples v = (g(x−d), g(x), g(x+d)) of the columns of G with all three
+ * points on one side of the source, outside the smeared kink (rows i0…i1); returns their count.
+ * (One loop nest without temporaries: optimised on complete feedback, no allocation per triple.)
+ */
+function recurrenceGram(G: Mat, x: Float64Array, s: Float64Array, i0: number, i1: number, d: number, gap: number, S: number[]): number {
+  let count = 0;
+  const g = G.data, nc = G.cols;
+  for (let j = 0; j < s.length; j++) {
+    const sj = s[j]!;
+    for (let i = i0 + d; i + d <= i1; i++) {
+      const xa = x[i - d]!, xb = x[i + d]!;
+      if (!((xb < sj - gap) || (xa > sj + gap))) continue;
+      const v0 = g[(i - d) * nc + j]!, v1 = g[i * nc + j]!, v2 = g[(i + d) * nc + j]!;
+      S[0] += v0 * v0; S[1] += v0 * v1; S[2] += v0 * v2;
+      S[3] += v1 * v0; S[4] += v1 * v1; S[5] += v1 * v2;
+      S[6] += v2 * v0; S[7] += v2 * v1; S[8] += v2 * v2;
+      count++;
+    }
+  }
+  return count;
+}
+
 /** Three-term recurrence g(x + d) = p g(x) + q g(x − d) fitted (total least squares) to the columns of G in [c − w, c + w] (uniform x). */
 export function localRecurrencePQ(G: Mat, x: Float64Array, s: Float64Array, c: number, w: number, gap: number, d: number): { p: number; q: number } {
   const h = x[1]! - x[0]!;
   const i0 = Math.max(0, Math.ceil((c - w - x[0]!) / h - 1e-9)), i1 = Math.min(x.length - 1, Math.floor((c + w - x[0]!) / h + 1e-9));
   const S = [0, 0, 0, 0, 0, 0, 0, 0, 0];
-  let count = 0;
-  for (let j = 0; j < s.length; j++) {
-    const sj = s[j]!;
-    for (let i = i0 + d; i + d <= i1; i++) {
-      const xa = x[i - d]!, xb = x[i + d]!;
-      // all three points on one side of the source, outside the smeared kink
-      if (!((xb < sj - gap) || (xa > sj + gap))) continue;
-      const v = [G.data[(i - d) * G.cols + j]!, G.data[i * G.cols + j]!, G.data[(i + d) * G.cols + j]!];
-      for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) S[a * 3 + b] += v[a]! * v[b]!;
-      count++;
-    }
-  }
+  const count = recurrenceGram(G, x, s, i0, i1, d, gap, S);
   if (count < 6) return { p: NaN, q: NaN };
   const e = smallestEig3(S); // e0 g(x−d) + e1 g(x) + e2 g(x+d) = 0
   if (!(Math.abs(e[2]!) > 0)) return { p: NaN, q: NaN };
