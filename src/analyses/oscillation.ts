@@ -195,7 +195,8 @@ function refine(pr: Prep, p0: number, ks0: number, dp0: number, dk0: number, max
   const triedP = new Float64Array(8), triedK = new Float64Array(8);
   for (let it = 0; it < maxIt && (dp > 1e-7 * (1 + Math.abs(p)) || dk > 1e-7 * (1 + Math.abs(ks))); it++) {
     let moved = false, tried = 0;
-    for (const [cp, ck] of [[dp, 0], [-dp, 0], [0, dk], [0, -dk], [dp, dk], [-dp, -dk], [dp, -dk], [-dp, dk]] as const) {
+    for (let q = 0; q < 8; q++) {
+      const cp = DIR_P[q]! * dp, ck = DIR_K[q]! * dk;
       const pt = p + cp, kt = ks + ck;
       if ((pt === p && kt === ks) || (pt === prevP && kt === prevKs) || seen(triedP, triedK, tried, pt, kt)) continue;
       triedP[tried] = pt; triedK[tried] = kt; tried++;
@@ -206,6 +207,9 @@ function refine(pr: Prep, p0: number, ks0: number, dp0: number, dk0: number, max
   }
   return { p, ks, f };
 }
+
+/** Compass directions of `refine`, in trial order: ±p, ±κs, then the four diagonals (no array per iteration). */
+const DIR_P = Float64Array.of(1, -1, 0, 0, 1, -1, 1, -1), DIR_K = Float64Array.of(0, 0, 1, -1, 1, -1, -1, 1);
 
 function seen(ps: Float64Array, ks: Float64Array, n: number, p: number, k: number): boolean {
   for (let i = 0; i < n; i++) if (ps[i] === p && ks[i] === k) return true;
