@@ -57,14 +57,34 @@ function characterPhrase(c: RegionCharacter): string {
   }
 }
 
+/** Mean relative half-width of a named operator term's band over the sample points inside [lo, hi]. */
+function termBandIn(f: Base, name: string, lo: number, hi: number): number | null {
+  const t = f.operator?.terms?.find((x) => x.name === name);
+  if (!t) return null;
+  let s = 0, m = 0;
+  for (let i = 0; i < t.x.length; i++) {
+    if (t.x[i]! < lo || t.x[i]! > hi) continue;
+    s += (t.upper[i]! - t.lower[i]!) / 2 / Math.max(Math.abs(t.value[i]!), 1e-300);
+    m++;
+  }
+  return m ? s / m : null;
+}
+
 function regionPhrase(r: Base['regions'][number], f: Base): string {
   const k = r.coefficients ?? {};
   const parts: string[] = [characterPhrase(r.character)];
-  if (typeof k.diffusion === 'number') parts.push(`conductivity ≈ ${num(k.diffusion)}`);
+  if (typeof k.diffusion === 'number') {
+    // the same bar as the global description: a value is stated only when its band is within ±50 %
+    const rel = termBandIn(f, 'diffusion', r.bounds[0], r.bounds[1]);
+    parts.push(rel !== null && rel >= 0.5
+      ? `conductivity poorly determined (≈ ${num(k.diffusion)}, band ±${Math.round(Math.min(rel, 99.99) * 100)} %)`
+      : `conductivity ≈ ${num(k.diffusion)}`);
+  }
   if (typeof k.advection === 'number' && r.character === 'advection-diffusion') {
     const dir = k.advection >= 0 ? '+x' : '-x';
     let s = `moving toward ${dir}`;
-    if (typeof k.diffusion === 'number' && k.diffusion > 0) s += ` with Péclet ≈ ${num(Math.abs(k.advection) * (r.bounds[1] - r.bounds[0]) / k.diffusion)}`;
+    const relA = termBandIn(f, 'diffusion', r.bounds[0], r.bounds[1]);
+    if (typeof k.diffusion === 'number' && k.diffusion > 0 && (relA === null || relA < 0.5)) s += ` with Péclet ≈ ${num(Math.abs(k.advection) * (r.bounds[1] - r.bounds[0]) / k.diffusion)}`;
     parts.push(s);
   }
   if (typeof k.reaction === 'number' && r.character === 'reaction-diffusion') parts.push(`decay rate ≈ ${num(k.reaction)}`);

@@ -54,6 +54,21 @@ describe('buildHypotheses', () => {
     expect(s.statement).toBe('A diffusion process with conductivity ≈ 1 on [0, 0.55], joined at x ≈ 0.55 (±0.01) to a transport-dominated (advection–diffusion) process with conductivity ≈ 0.015, moving toward +x with Péclet ≈ 30 on [0.55, 1].');
     expect(s.confidence).toBeCloseTo(0.9, 2);
   });
+  it('a region whose conductivity band is wider than ±50 % gets no value stated as known, and no Péclet number built on it', () => {
+    // invented bands: on [0, 0.55] the half-widths are 1.0 and 2.0 of the value (mean ±150 %); on [0.55, 1] ±5 %
+    const operator = { expression: '…', reliable: false, significant: ['diffusion'], terms: [{ name: 'diffusion', form: "-(a(x) u')'", x: [0.2, 0.4, 0.8], value: [1, 1, 0.015], lower: [0, -1, 0.01425], upper: [2, 3, 0.01575] }] };
+    const h = buildHypotheses(base({
+      operator,
+      regions: [
+        { bounds: [0, 0.55], character: 'advection-diffusion', coefficients: { diffusion: 1.0, advection: 1.0 } },
+        { bounds: [0.55, 1], character: 'advection-diffusion', coefficients: { diffusion: 0.015, advection: 1.0 } },
+      ],
+      interfaces: [{ location: 0.55, uncertainty: 0.01, confidence: 0.9 }],
+      translation_invariant: { verdict: 'no', defect: 0.3, confidence: 0.95 },
+    } as Partial<Base>));
+    const s = h.find((x) => x.evidence.includes('regions'))!;
+    expect(s.statement).toBe('A transport-dominated (advection–diffusion) process with conductivity poorly determined (≈ 1, band ±150 %), moving toward +x on [0, 0.55], joined at x ≈ 0.55 (±0.01) to a transport-dominated (advection–diffusion) process with conductivity ≈ 0.015, moving toward +x with Péclet ≈ 30 on [0.55, 1].');
+  });
   it('contradicting evidence lowers confidence and is said', () => {
     const clean = buildHypotheses(base({ transport: { verdict: '+x', direction: [1], confidence: 0.8, peclet: 12 }, self_adjoint: { verdict: 'no', defect: 0.2, noise_floor: 0.01, confidence: 0.9 } }));
     const contra = buildHypotheses(base({ transport: { verdict: '+x', direction: [1], confidence: 0.8, peclet: 12 }, self_adjoint: { verdict: 'yes', defect: 0.001, noise_floor: 0.01, confidence: 0.9 } }));
