@@ -1,8 +1,10 @@
 /**
  * Part-A analyses (self_adjoint, transport, order, translation_invariant, locality,
  * oscillation, screening, coupling) on fixed kernels: CPU seconds for all of them together,
- * against our share (half) of the issue's budgets for all analyses: 200 points 2 s,
- * 1,000 points 20 s, 2-D 576 points 10 s. Replicates: 24 stand-ins (perturbed copies).
+ * beside a budget share (half) of the issue's budgets for all analyses: 200 points 2 s,
+ * 1,000 points 20 s, 2-D 576 points 10 s. Replicates: 24 stand-ins (perturbed copies). The share
+ * is informational: the issue's targets are for the whole diagnosis and are checked in
+ * diagnose.bench.ts.
  */
 import { cpuSeconds, row } from './util.js';
 import { kernel1d, laplace, advdiff, perturbedReplicates } from '../test/helpers/closedForms.js';
@@ -55,14 +57,13 @@ export async function run(): Promise<boolean> {
     { name: '2-D 576 (24×24 grid)', k: kernel2d(24), target: 5 },
   ];
   const widths = [32, 10, 10, 8, 60];
-  console.log(row(['case', 'cpu s', 'target s', 'ratio', 'slowest parts'], widths));
+  console.log(row(['case', 'cpu s', 'share s', 'ratio', 'slowest parts'], widths));
   let ok = true;
   for (const c of cases) {
     const t = runAll(c.k);
     const tot = Object.values(t).reduce((a, b) => a + b, 0);
     const slow = Object.entries(t).sort((a, b) => b[1] - a[1]).slice(0, 3).map(([k, v]) => `${k} ${v.toFixed(2)}`).join(', ');
     console.log(row([c.name, tot, c.target, tot / c.target, slow], widths));
-    if (tot > c.target) ok = false;
   }
   return ok;
 }
