@@ -10,6 +10,7 @@ import { readStudy } from './io/study.js';
 import { readKernel, writeKernel, isKernelDir } from './io/kernel.js';
 import { withOutput, type OutputStage } from './io/output.js';
 import { fitStudy, refit } from './fit/index.js';
+import { detectInterfaces } from './analyses/interfaces.js';
 import { diagnose } from './diagnose.js';
 import { analyses } from './analyses/registry.js';
 import { VERSION } from './version.js';
@@ -59,7 +60,10 @@ export function writeFit(stage: OutputStage, fit: FitResult, at: string): void {
   stage.write(`${at}/fit.json`, JSON.stringify(fit.report, null, 2) + '\n');
 }
 
-/** Fit a study and diagnose the kernel, refitting under symmetry when the data establish it. */
+/** Confidence of a located interface above which the fit is redone with bases broken there. */
+const INTERFACE_REFIT_CONFIDENCE = 0.9;
+
+/** Fit a study and diagnose the kernel, refitting under symmetry when the data establish it, then with bases broken at confidently located interfaces. */
 export function diagnoseStudy(study: Study, opts: PipelineOptions): { findings: Findings; fit: FitResult } {
   const seed = opts.seed ?? 0;
   const say = opts.progress ?? (() => {});
@@ -73,6 +77,16 @@ export function diagnoseStudy(study: Study, opts: PipelineOptions): { findings: 
     if (sa.verdict === 'yes' && sa.confidence >= 0.9) {
       say('self-adjointness established: refitting under symmetry');
       fit = refit(study, fit, 'symmetric');
+    }
+  }
+  // interfaces located with confidence: refit with the bases broken there (kept only if it cross-validates
+  // no worse; 1-D scalar studies only, a no-op otherwise)
+  if (!opts.noRefit && study.dimension === 1 && analyses.some((a) => a.key === 'interfaces')) {
+    const found = detectInterfaces(fit.kernel, fit.noise.replicates).interfaces.filter((i) => i.confidence >= INTERFACE_REFIT_CONFIDENCE).map((i) => i.location);
+    if (found.length) {
+      say(`interfaces at ${found.map((t) => t.toPrecision(3)).join(', ')}: refitting with bases broken there`);
+      const symmetric = fit.report.refits.some((r) => r.used && r.constraint === 'symmetric');
+      fit = refit(study, fit, { constraint: symmetric ? 'symmetric' : 'none', breaks: found });
     }
   }
   say('diagnosing the kernel');

@@ -26,6 +26,8 @@ export interface FitOptions {
   /** number of bootstrap replicates (default 20) */
   replicates?: number;
   progress?: (msg: string) => void;
+  /** interior break points (interfaces) for the 1-D bases: piecewise Legendre on the pieces between them */
+  breaks?: number[];
 }
 
 /** z above which the scaling test calls a study nonlinear (one-sided, p ≈ 0.001 under a Gaussian null) */
@@ -38,12 +40,12 @@ function defaultReplicates(_prep: Prepared): number {
   return 20;
 }
 
-function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void): CoreFit {
+function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[]): CoreFit {
   const sets = Array.from({ length: prep.nOut * prep.cOut }, (_, c) => measured(prep, c));
   const rng = new Rng(seed);
   const sigmaKnown = study.noise?.sigma !== undefined && study.noise.sigma > 0 ? study.noise.sigma : undefined;
   const common = { rng, replicates, sigmaKnown, progress, scaling: true };
-  if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint });
+  if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint, breaks });
   return fitPathSpan(prep, sets, { ...common, constraint });
 }
 
@@ -166,9 +168,9 @@ export function fitStudy(study: Study, opts: FitOptions = {}): FitResult {
   const R = opts.replicates ?? defaultReplicates(prep);
   if (!Number.isInteger(R) || R < 2) throw new DataError('replicates must be an integer ≥ 2');
   const assume = opts.assume ?? 'none';
-  const base = assemble(study, prep, runCore(study, prep, 'none', seed, R, progress), seed, t0);
+  const base = assemble(study, prep, runCore(study, prep, 'none', seed, R, progress, opts.breaks), seed, t0);
   if (assume === 'none') return base;
-  const other = refitFrom(study, prep, base, assume, seed, R, progress, true);
+  const other = refitFrom(study, prep, base, assume, seed, R, progress, true, opts.breaks);
   other.report.seconds = (Date.now() - t0) / 1000;
   return other;
 }
@@ -178,7 +180,7 @@ function refitApplies(prep: Prepared): boolean {
   return prep.dimension === 1 && prep.cIn === 1 && prep.cOut === 1;
 }
 
-function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint: 'symmetric' | 'translation', seed: number, R: number, progress: (m: string) => void, forced: boolean): FitResult {
+function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint: 'none' | 'symmetric' | 'translation', seed: number, R: number, progress: (m: string) => void, forced: boolean, breaks?: readonly number[]): FitResult {
   const t0 = Date.now();
   if (!refitApplies(prep)) {
     // nothing to refit (the span model and block kernels have no constrained form): say so, keep the fit
@@ -190,32 +192,45 @@ function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint
     report.refit_note = `a ${constraint} refit is implemented for scalar 1-D studies only (this one is ${prep.dimension}-D${prep.cIn > 1 || prep.cOut > 1 ? ' with several components' : ''}); the unconstrained kernel is used`;
     return { kernel: previous.kernel, noise: previous.noise, report };
   }
-  const core = runCore(study, prep, constraint, seed, R, progress);
+  const core = runCore(study, prep, constraint, seed, R, progress, breaks);
   const res = assemble(study, prep, core, seed, t0);
-  const prevEntry = previous.report.refits.find((r) => r.constraint === 'none') ?? { constraint: 'none', relative_residual: previous.report.relative_residual, used: true };
-  const applied = core.constraint === constraint;
+  const label = breaks?.length ? `${constraint === 'none' ? 'piecewise' : `${constraint}, piecewise`} (breaks at ${breaks.map((t) => t.toPrecision(3)).join(', ')})` : constraint;
+  // compared with the fit in use (the unconstrained one unless an earlier refit replaced it)
+  const prevEntry = previous.report.refits.find((r) => r.used) ?? previous.report.refits.find((r) => r.constraint === 'none') ?? { constraint: 'none', relative_residual: previous.report.relative_residual, used: true };
+  const applied = core.constraint === constraint && (!breaks?.length || core.hyper.breaks !== undefined);
   const useRefit = applied && (forced || res.report.relative_residual <= prevEntry.relative_residual);
+  const earlier = previous.report.refits.length ? previous.report.refits : [prevEntry];
   const refits = [
-    { constraint: 'none', relative_residual: prevEntry.relative_residual, used: !useRefit },
-    { constraint, relative_residual: applied ? res.report.relative_residual : NaN, used: useRefit },
+    ...earlier.map((r) => ({ ...r, used: r.used && !useRefit })),
+    { constraint: label, relative_residual: applied ? res.report.relative_residual : prevEntry.relative_residual, used: useRefit },
   ];
-  if (!applied) refits[1]!.relative_residual = prevEntry.relative_residual;
   const chosen = useRefit ? res : previous;
   // the scaling test belongs to the data, not to the constraint: keep the unconstrained fit's verdict
   const linearity = chosen.report.linearity.verdict === 'not-tested' ? previous.report.linearity : chosen.report.linearity;
   const out: FitResult = { kernel: chosen.kernel, noise: chosen.noise, report: { ...chosen.report, linearity, refits } };
   const extra = out.report as FitReport & Record<string, unknown>;
   extra.refit_note = !applied
-    ? `the ${constraint} constraint could not be applied to this study; the unconstrained kernel is used`
+    ? `the ${label} refit could not be applied to this study; the previous kernel is used`
     : useRefit
-      ? `the ${constraint} refit is used${forced ? ' (assumed by the user)' : ' (its cross-validated residual is not larger)'}`
-      : `the ${constraint} refit fits worse (cross-validated residual ${res.report.relative_residual.toPrecision(3)} vs ${prevEntry.relative_residual.toPrecision(3)}); the unconstrained kernel is used`;
+      ? `the ${label} refit is used${forced ? ' (assumed by the user)' : ' (its cross-validated residual is not larger)'}`
+      : `the ${label} refit fits worse (cross-validated residual ${res.report.relative_residual.toPrecision(3)} vs ${prevEntry.relative_residual.toPrecision(3)}); the unconstrained kernel is used`;
   return out;
 }
 
-/** Structure-aware refit (the diagnosis calls it once it has established the structure). */
-export function refit(study: Study, previous: FitResult, constraint: 'symmetric' | 'translation'): FitResult {
+/** A refit with bases broken at given points (interfaces), optionally also under symmetry. */
+export interface RefitSpec {
+  constraint?: 'none' | 'symmetric';
+  /** interior break points: piecewise Legendre bases on the pieces between them (1-D scalar studies) */
+  breaks: number[];
+}
+
+/**
+ * Structure-aware refit (the diagnosis calls it once it has established the structure). The refit is kept
+ * only if its cross-validated residual is not larger than the previous fit's.
+ */
+export function refit(study: Study, previous: FitResult, constraint: 'symmetric' | 'translation' | RefitSpec): FitResult {
   const prep = prepare(study);
   const R = previous.noise.replicates.length || defaultReplicates(prep);
-  return refitFrom(study, prep, previous, constraint, previous.report.seed, R, () => {}, false);
+  if (typeof constraint === 'string') return refitFrom(study, prep, previous, constraint, previous.report.seed, R, () => {}, false);
+  return refitFrom(study, prep, previous, constraint.constraint ?? 'none', previous.report.seed, R, () => {}, false, constraint.breaks);
 }

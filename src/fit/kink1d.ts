@@ -64,6 +64,40 @@ export function legendreKinkBasis(prep: Prepared, Kmax: number): KinkBasis {
   };
 }
 
+/**
+ * Piecewise orthonormal Legendre polynomials on the pieces [lo, τ1), [τ1, τ2), …, [τm, hi] (no continuity
+ * imposed: the ridge penalty and GCV decide how much the pieces differ). Column a = d·P + piece (P pieces),
+ * so every nested size that is a multiple of P holds all pieces to the same degree d; each column is
+ * scaled to unit mean square over the whole interval, q = √(L/ℓ) q_d on its piece of length ℓ, zero
+ * elsewhere. Penalty degree of a column: its degree within the piece. Breaks outside (lo, hi) are dropped.
+ */
+export function piecewiseKinkBasis(prep: Prepared, Kmax: number, breaks: readonly number[]): KinkBasis {
+  const [lo, hi] = prep.box[0]!;
+  const edges = [lo, ...[...new Set(breaks)].filter((t) => t > lo && t < hi).sort((a, b) => a - b), hi];
+  const P = edges.length - 1, D = Math.ceil(Kmax / P);
+  const mk = (x: Float64Array): Mat => {
+    const out = zeros(x.length, Kmax);
+    for (let i = 0; i < x.length; i++) {
+      let piece = 0;
+      while (piece < P - 1 && x[i]! >= edges[piece + 1]!) piece++;
+      const a = edges[piece]!, b = edges[piece + 1]!;
+      const L = legendreBasis([x[i]!], D, a, b), sc = Math.sqrt((hi - lo) / (b - a));
+      for (let d = 0; d < D; d++) { const col = d * P + piece; if (col < Kmax) out.data[i * Kmax + col] = sc * L.data[d]!; }
+    }
+    return out;
+  };
+  const degree = Float64Array.from({ length: Kmax }, (_, a) => Math.floor(a / P));
+  return { Phi: mk(prep.pointsOut.data), Psi: mk(prep.pointsIn.data), degree, omega: null };
+}
+
+/** Candidate sizes of a piecewise basis with P pieces: multiples of P from degree 1 up (nested, increasing). */
+export function piecewiseCandidates(Kmax: number, P: number): number[] {
+  const c: number[] = [];
+  for (let k = 2 * P; k <= Kmax; k += P) c.push(k);
+  if (!c.length) c.push(Kmax);
+  return c;
+}
+
 /** The first K columns of a basis (the nested model of size K). */
 export function truncateBasis(b: KinkBasis, K: number): KinkBasis {
   const cut = (M: Mat): Mat => {

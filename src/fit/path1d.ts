@@ -16,6 +16,7 @@ import {
   type ParamMap, startKinkSearch, advanceKinkSearch, remainingGcvBound, unpenalisedResidual,
   rowCoefficients, sweepFeatures, reduceVec, expand, reduceSystem, penaltyWeights,
   symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
+  piecewiseKinkBasis, piecewiseCandidates,
 } from './kink1d.js';
 import { RidgeSolver, type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, gcvAt, semidefiniteCholesky } from './spectral.js';
 export { semidefiniteCholesky } from './spectral.js';
@@ -240,8 +241,13 @@ const SCAN_TOP_OMEGA_L = 48;
 
 export function fitPath1d(prep: Prepared, sets: number[][], o: {
   constraint: Constraint; rng: Rng; replicates: number; sigmaKnown?: number; progress: (m: string) => void; scaling: boolean;
+  /** interior break points: the basis is piecewise Legendre on the pieces between them (piecewiseKinkBasis) */
+  breaks?: readonly number[];
 }): CoreFit {
-  const Kf = maxBasisSize(prep);
+  const [blo, bhi] = prep.box[0]!;
+  const breaks = (o.breaks ?? []).filter((t) => t > blo && t < bhi);
+  const pieces = new Set(breaks).size + 1;
+  const Kf = pieces > 1 ? pieces * Math.ceil(maxBasisSize(prep) / pieces) : maxBasisSize(prep);
   const notes: string[] = [];
   let constraint = o.constraint;
   if (constraint === 'symmetric' && (prep.cIn !== 1 || prep.cOut !== 1)) {
@@ -283,10 +289,12 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     for (const st of fam.searches) advanceKinkSearch(st);
     return settle(fam, fam);
   };
-  const canEnrich = Kf >= 8 && prep.box[0]![1] > prep.box[0]![0];
+  const canEnrich = pieces === 1 && Kf >= 8 && prep.box[0]![1] > prep.box[0]![0];
   // with the oscillatory family in play, the plain sizes above EAGER_PLAIN_SIZE are searched only if the plain
   // family can still win: first the enriched family's score, then a lower bound on the deferred sizes' GCV
-  let plain = fitBasis(legendreKinkBasis(prep, Kf), kinkCandidates(Kf), undefined, canEnrich ? EAGER_PLAIN_SIZE : Infinity);
+  let plain = pieces > 1
+    ? fitBasis(piecewiseKinkBasis(prep, Kf, breaks), piecewiseCandidates(Kf, pieces))
+    : fitBasis(legendreKinkBasis(prep, Kf), kinkCandidates(Kf), undefined, canEnrich ? EAGER_PLAIN_SIZE : Infinity);
   let chosen = plain;
   // oscillatory enrichment: frequency by a GCV scan at a small size; the enriched basis replaces the plain
   // one only when it beats it at that size and again at its own GCV-chosen size
@@ -494,9 +502,10 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
 
   const f0 = fits[0]!;
   const hyper: Record<string, number | string | boolean> = {
-    basis: basis.omega === null ? 'legendre' : 'legendre+cos/sin', basis_size: f0.K, penalty_order: f0.order, jump_penalty_factor: f0.jump, constraint, max_basis_size: Kf,
+    basis: pieces > 1 ? 'piecewise-legendre' : basis.omega === null ? 'legendre' : 'legendre+cos/sin', basis_size: f0.K, penalty_order: f0.order, jump_penalty_factor: f0.jump, constraint, max_basis_size: Kf,
   };
   if (basis.omega !== null) hyper.frequency = basis.omega;
+  if (pieces > 1) hyper.breaks = [...new Set(breaks)].sort((a, b) => a - b).join(',');
   if (oscillatory) {
     hyper.oscillatory_frequency_scanned = oscillatory.omega;
     hyper.oscillatory_gcv_ratio = (oscillatory.full ?? NaN) / plainScore;
