@@ -270,7 +270,8 @@ export function buildHypotheses(f: Base): Hypothesis[] {
   // restricted coverage, stated on its own
   const cov = (f.fit as { coverage?: { complete?: boolean; identified_energy_fraction?: number; identified_rank?: number } }).coverage;
   if (cov && cov.complete === false) {
-    const frac = typeof cov.identified_energy_fraction === 'number' ? ` (about ${Math.round(cov.identified_energy_fraction * 100)} % of its energy${typeof cov.identified_rank === 'number' ? `, ${cov.identified_rank} directions` : ''})` : '';
+    const pct = (e: number) => { const p = 100 * e; return p >= 99.95 && p < 100 ? 'over 99.9' : `about ${p >= 99.5 && p < 100 ? p.toFixed(1) : String(Math.round(p))}`; };
+    const frac = typeof cov.identified_energy_fraction === 'number' ? ` (${pct(cov.identified_energy_fraction)} % of its energy${typeof cov.identified_rank === 'number' ? `, ${cov.identified_rank} directions` : ''})` : '';
     out.push({ statement: `The forcings identified only part of the kernel${frac}: conclusions about finer scales than the forcings excite are not supported by these data.`, confidence: 0.9, evidence: ['fit'] });
   }
 

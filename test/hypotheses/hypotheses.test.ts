@@ -103,6 +103,13 @@ describe('buildHypotheses', () => {
     expect(h.some((x) => x.statement.includes('only part of the kernel (about 62 % of its energy, 14 directions)'))).toBe(true);
     expect(h[0]!.caveats?.some((c) => c.includes('kernel itself')) || h.some((x) => x.caveats?.some((c) => c.includes('kernel itself')))).toBe(true);
   });
+  it('a nearly complete coverage is not rounded up to 100 % of the energy', () => {
+    const say = (e: number) => buildHypotheses(base({ fit: { relative_residual: 0.01, noise_estimate: 0.001, experiments: 20, coverage: { complete: false, identified_energy_fraction: e, identified_rank: 22 } } }))
+      .find((x) => x.statement.includes('only part of the kernel'))!.statement;
+    expect(say(0.9968)).toContain('about 99.7 % of its energy');
+    expect(say(0.99997)).toContain('(over 99.9 % of its energy');
+    expect(say(0.954)).toContain('about 95 % of its energy');
+  });
   it('systems: a one-way coupling names who drives whom', () => {
     const h = buildHypotheses(base({ components: { in: 2, out: 2 }, coupling: { verdict: 'one-way', matrix: [[1, 0], [0.3, 1]], confidence: 0.9 } as Base['coupling'] }));
     const c = h.find((x) => x.evidence.includes('coupling'))!;
