@@ -5,6 +5,7 @@
  */
 import type { Kernel, NoiseFloor } from './types.js';
 import type { Mat } from './linalg/dense.js';
+import { matmul, matmulTN } from './linalg/dense.js';
 import { Rng } from './linalg/rng.js';
 
 /** Index of the nearest other point for each point (n × d points). */
@@ -238,30 +239,10 @@ function leadingSingularVectors(G: Mat, k: number, rng: Rng): { U: Mat; V: Mat }
   let Q = orthonormal({ rows: m, cols: k, data: Float64Array.from({ length: m * k }, () => rng.normal()) });
   let P: Mat = { rows: n, cols: k, data: new Float64Array(n * k) };
   for (let it = 0; it < 4; it++) {
-    P = orthonormal(mulT(G, Q));   // Gᵀ Q
-    Q = orthonormal(mul(G, P));    // G P
+    P = orthonormal(matmulTN(G, Q));   // Gᵀ Q
+    Q = orthonormal(matmul(G, P));     // G P
   }
   return { U: Q, V: P };
-}
-
-function mul(A: Mat, B: Mat): Mat {
-  const out = new Float64Array(A.rows * B.cols);
-  for (let i = 0; i < A.rows; i++) for (let l = 0; l < A.cols; l++) {
-    const a = A.data[i * A.cols + l]!;
-    if (a === 0) continue;
-    for (let j = 0; j < B.cols; j++) out[i * B.cols + j] += a * B.data[l * B.cols + j]!;
-  }
-  return { rows: A.rows, cols: B.cols, data: out };
-}
-
-function mulT(A: Mat, B: Mat): Mat {
-  const out = new Float64Array(A.cols * B.cols);
-  for (let l = 0; l < A.rows; l++) for (let i = 0; i < A.cols; i++) {
-    const a = A.data[l * A.cols + i]!;
-    if (a === 0) continue;
-    for (let j = 0; j < B.cols; j++) out[i * B.cols + j] += a * B.data[l * B.cols + j]!;
-  }
-  return { rows: A.cols, cols: B.cols, data: out };
 }
 
 /** Modified Gram–Schmidt on the columns (twice, for stability). */

@@ -19,6 +19,7 @@ import { clamp01, separationConfidence } from './analysis.js';
 import type { Findings, Kernel, Evidence } from '../types.js';
 import type { Mat } from '../linalg/dense.js';
 import { aaa, aaaSequence, evaluate, poles, residues } from '../rational/aaa.js';
+import { replicateSpread } from './util/a_common.js';
 
 type F = Findings['singularities'];
 
@@ -416,15 +417,7 @@ export const singularities: Analysis<F> = {
     const hrepsAll = ctx.noise.homogeneousReplicates.filter((u) => u && u.length >= nOut);
     let hSd: Float64Array | null = null;
     if (kernel.homogeneous && hrepsAll.length >= 2) {
-      hSd = new Float64Array(nOut);
-      for (let i = 0; i < nOut; i++) {
-        let m = 0;
-        for (const u of hrepsAll) m += u[i]!;
-        m /= hrepsAll.length;
-        let v = 0;
-        for (const u of hrepsAll) v += (u[i]! - m) ** 2;
-        hSd[i] = Math.sqrt(v / (hrepsAll.length - 1));
-      }
+      hSd = replicateSpread(hrepsAll, nOut).sd;
     }
     const main = findSingularities(block(kernel.G), kernel.homogeneous, kernel, { homogeneousSd: hSd });
     const maxReps = Math.max(0, Math.min(8, Number(ctx.options['singularityReplicates'] ?? 6)));

@@ -18,6 +18,7 @@
  * memory). Pure module: no file system, no randomness.
  */
 import type { Mat } from '../linalg/dense.js';
+import { replicateSpread } from './util/a_common.js';
 
 export type TermName = 'diffusion' | 'advection' | 'reaction' | 'fourth-order';
 
@@ -351,19 +352,8 @@ export function solveDesigns(Ms: Float64Array[], repMs: Float64Array[][], blocks
     if (x) reps.push(x);
     else unreliable = true;
   }
-  const sd = new Float64Array(P);
-  const mean = new Float64Array(theta);
-  if (reps.length >= 2) {
-    for (let i = 0; i < P; i++) {
-      let m = 0;
-      for (const r of reps) m += r[i]!;
-      m /= reps.length;
-      let v = 0;
-      for (const r of reps) v += (r[i]! - m) ** 2;
-      sd[i] = Math.sqrt(v / (reps.length - 1));
-      mean[i] = m;
-    }
-  }
+  // with fewer than two replicates: no spread, and the estimate stands for their mean
+  const { sd, mean } = reps.length >= 2 ? replicateSpread(reps, P) : { sd: new Float64Array(P), mean: new Float64Array(theta) };
   return { theta, se, replicates: reps, aligned, sd, mean, dof, residual, corrected, unreliable, attenuation };
 }
 

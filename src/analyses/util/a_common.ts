@@ -197,6 +197,21 @@ export function std(v: ArrayLike<number>): number {
   return Math.sqrt(s / (v.length - 1));
 }
 
+/** Entry-wise mean and sample standard deviation over replicate vectors (the first n entries of each; ≥ 2 replicates). */
+export function replicateSpread(reps: readonly ArrayLike<number>[], n: number): { mean: Float64Array; sd: Float64Array } {
+  const mean = new Float64Array(n), sd = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    let m = 0;
+    for (const r of reps) m += r[i]!;
+    m /= reps.length;
+    let v = 0;
+    for (const r of reps) v += (r[i]! - m) ** 2;
+    sd[i] = Math.sqrt(v / (reps.length - 1));
+    mean[i] = m;
+  }
+  return { mean, sd };
+}
+
 export function rms(v: ArrayLike<number>): number {
   let s = 0;
   for (let i = 0; i < v.length; i++) s += v[i]! * v[i]!;
