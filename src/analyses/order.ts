@@ -168,6 +168,29 @@ export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[]): { valu
   return { value: Math.abs(sum / Math.max(1, jump.length)) / ms, scale: sc };
 }
 
+/**
+ * Pooled jump of the third derivative across the diagonal, mean over interior columns of
+ * [∂x³G](s_j) (1-D, co-located), at the default window w and at 2w, with replicate floors (RMS
+ * of the same means over the replicates' deviations). A fourth-order operator (e u″)″ + … has
+ * [∂x³G] = 1/e(s), one sign along the diagonal, so the mean keeps the signal, and a true jump
+ * is the same at every window. A smooth (non-local) kernel has no jump, but the local fit's
+ * unmodelled even Taylor terms (from u⁶ on) leak into the |u|u² coefficient: that bias grows
+ * like w³, 8× from w to 2w. `scaleFree` is the equivalence test between the two predictions
+ * (difference 0 for a jump, 7·J(w) for the bias): |J(2w) − J(w)| with its one-sided 95 % margin
+ * below the midpoint 3.5·|J(w)|.
+ */
+export function thirdJumpStatistic(G: Mat, x: Float64Array, devs: Mat[]): { value: number; floor: number; wide: number; scaleFree: boolean } {
+  const fn = slopeJumpFunctionals(x, undefined, 3);
+  const fw = slopeJumpFunctionals(x, 2 * fn.halfWidth, 3);
+  const pooled = (M: Mat, f: typeof fn) => { const j = applyJumpFunctionals(M, f); let t = 0; for (let q = 0; q < j.length; q++) t += j[q]!; return j.length ? t / j.length : NaN; };
+  const j1 = pooled(G, fn), j2 = fw.idx.length ? pooled(G, fw) : NaN;
+  let f1 = 0, fd = 0;
+  for (const D of devs) { const a = pooled(D, fn); f1 += a * a; fd += (pooled(D, fw) - a) ** 2; }
+  const floor = devs.length ? Math.sqrt(f1 / devs.length) : NaN, floorDiff = devs.length ? Math.sqrt(fd / devs.length) : NaN;
+  const scaleFree = Number.isFinite(j2) && Number.isFinite(floorDiff) && Math.abs(j2 - j1) + EQUIVALENCE_Z * floorDiff < 3.5 * Math.abs(j1);
+  return { value: Math.abs(j1), floor, wide: Math.abs(j2), scaleFree };
+}
+
 /** Combine two independent probabilities for the same hypothesis (equal priors). */
 function combine(pa: number, pb: number): number {
   const a = pa * pb, b = (1 - pa) * (1 - pb);
@@ -208,23 +231,38 @@ export const order: Analysis<F> = {
       pWeyl2 = clamp01(normalCdf((3 - od) / spread));
     }
     // smoothness line of evidence (1-D, co-located)
+    // A slope jump says order 2. No slope jump says "not order 2" but not yet "order 4": a smooth
+    // non-local kernel has no kink either. Order 4 needs its own signature, a jump of ∂x³G at the
+    // diagonal above the replicates' floor (3 sigma, the shared `decide` rule). Only a positive
+    // signature lets the diagonal decide without the spectrum.
     let pSmooth2 = 0.5;
+    let diagonalDecides = false;
     let kink: { value: number; floor: number; decision: string } | null = null;
+    let third: { value: number; floor: number; decision: string; wide: number } | null = null;
     if (d === 1 && colocated(kernel) && kernel.components.in === 1 && kernel.components.out === 1) {
       const ks = kinkStatistic(kernel.G, kernel.pointsIn.data);
       const devs = deviations(reps);
       const fl = devs.length ? Math.sqrt(devs.reduce((s, dv) => s + kinkStatistic(dv, kernel.pointsIn.data, ks.scale).value ** 2, 0) / devs.length) : NaN;
       const dk = decide(ks.value, fl, 0.05);
       kink = { value: ks.value, floor: fl, decision: dk.decision };
-      if (dk.decision === 'present') pSmooth2 = dk.confidence;
-      else if (dk.decision === 'absent') pSmooth2 = 1 - dk.confidence;
+      if (dk.decision === 'present') { pSmooth2 = dk.confidence; diagonalDecides = true; }
+      else if (dk.decision === 'absent') {
+        const t3 = thirdJumpStatistic(kernel.G, kernel.pointsIn.data, devs);
+        const d3 = decide(t3.value, t3.floor, 0); // resolution 0: presence only (absence says nothing here)
+        const decision = d3.decision === 'present' && !t3.scaleFree ? 'inconclusive' : d3.decision;
+        third = { value: t3.value, floor: t3.floor, decision, wide: t3.wide };
+        // both must hold: no slope jump and a scale-free third-derivative jump (the weaker confidence counts)
+        if (decision === 'present') { pSmooth2 = 1 - Math.min(dk.confidence, d3.confidence); diagonalDecides = true; }
+        // no signature of a finite order: against order 2 only as far as the spectrum also says it
+        else if (K >= 6) pSmooth2 = 1 - dk.confidence;
+      }
     }
     let estimate: number | null = null;
     let confidence = 0.5;
     const p2 = combine(pWeyl2, pSmooth2);
     if (decay === 'exponential') {
       estimate = null; confidence = 0.5;
-    } else if (K >= 6 || kink?.decision !== undefined && kink.decision !== 'inconclusive') {
+    } else if (K >= 6 || diagonalDecides) {
       if (p2 >= 0.5) { estimate = 2; confidence = p2; } else { estimate = 4; confidence = 1 - p2; }
       if (Math.max(p2, 1 - p2) < 0.6) { estimate = null; confidence = 0.5; }
     }
@@ -240,6 +278,7 @@ export const order: Analysis<F> = {
         exponential_rate: fit ? sig(fit.rate, 4) : null,
         fit_range: fit ? [lo, hi] : null,
         diagonal_kink: kink ? { statistic: sig(kink.value, 3), noise_floor: sig(kink.floor, 3), verdict: kink.decision } : null,
+        third_derivative_jump: third ? { statistic: sig(third.value, 3), noise_floor: sig(third.floor, 3), at_double_window: sig(third.wide, 3), verdict: third.decision } : null,
         evidence_agree: !disagree,
       },
       evidence: {
@@ -247,6 +286,7 @@ export const order: Analysis<F> = {
         noise_floor: sig(expSd, 3),
         summary: `${K} trustworthy singular values; ` + (fit ? `power-law exponent ${fit.exponent.toFixed(2)}${Number.isFinite(expSd) ? ` ± ${expSd.toFixed(2)}` : ''} over k = ${lo}–${hi} (decay looks ${decay})` : 'too few to fit a decay') +
           (kink ? `; slope jump across the diagonal ${kink.decision} (${kink.value.toPrecision(2)} vs floor ${Number.isFinite(kink.floor) ? kink.floor.toPrecision(2) : '?'})` : '') +
+          (third ? `; third-derivative jump ${third.decision} (${third.value.toPrecision(2)} vs floor ${Number.isFinite(third.floor) ? third.floor.toPrecision(2) : '?'})` : '') +
           `: order ${estimate ?? 'not determined'}${disagree ? ' (the two lines of evidence disagree)' : ''}.`,
         explanation,
         plot: {

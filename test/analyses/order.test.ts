@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
-import { order, kernelSpectrum, decayFit } from '../../src/analyses/order.js';
-import { kernel1d, laplace, advdiff, screened, clampedBeam, simplyBeam, piecewise, sampleKernel } from '../helpers/closedForms.js';
+import { order, kernelSpectrum, decayFit, thirdJumpStatistic } from '../../src/analyses/order.js';
+import { kernel1d, laplace, advdiff, screened, clampedBeam, simplyBeam, piecewise, sampleKernel, uniformGrid } from '../helpers/closedForms.js';
 import { slopeJumpFunctionals, applyJumpFunctionals, spectralNorm, sqrtWeighted, analysisRng } from '../../src/analyses/util/a_common.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
 
@@ -57,6 +57,43 @@ describe('order', () => {
     // screened −u″ + 25u (smooth off the diagonal): the same jump −1, to the quartic's accuracy
     const Gs = sampleKernel(screened(5), x);
     for (const v of applyJumpFunctionals(Gs, fn)) expect(Math.abs(v + 1)).toBeLessThan(1e-4);
+  });
+
+  it('third-derivative functionals give [∂x³G] = 1/e = 1 for both beams (u″″ = δ; references §2 (f1) clamped, (f2) simply supported; Roark, Butkovskiy, from memory)', () => {
+    const x = uniformGrid(201);
+    for (const g of [clampedBeam, simplyBeam]) {
+      const fn = slopeJumpFunctionals(x, undefined, 3);
+      const J = applyJumpFunctionals(sampleKernel(g, x), fn);
+      expect(J.length).toBeGreaterThan(150);
+      for (const v of J) expect(Math.abs(v - 1)).toBeLessThan(1e-6); // piecewise cubic: exact in the basis
+      // the pooled statistic is the same at the doubled window (a jump is scale-free)
+      const t = thirdJumpStatistic(sampleKernel(g, x), x, []);
+      expect(Math.abs(t.value - 1)).toBeLessThan(1e-6);
+      expect(Math.abs(t.wide - 1)).toBeLessThan(1e-6);
+    }
+    // a second-order kernel has its jump in the slope, none in ∂x³G: −u″ (references (a), piecewise linear)
+    const fn = slopeJumpFunctionals(x, undefined, 3);
+    for (const v of applyJumpFunctionals(sampleKernel(laplace(), x), fn)) expect(Math.abs(v)).toBeLessThan(1e-6);
+  });
+
+  it('with too few trustworthy singular values the diagonal decides alone only on a positive signature: beam → 4, Gaussian (smooth, non-local) → none', () => {
+    // identified rank 4 caps the trustworthy count below the 6 a decay fit needs
+    const at = (g: Parameters<typeof kernel1d>[0]) => {
+      const { kernel, ctx } = noisy(kernel1d(g, 160), 0.001, 41);
+      ctx.fit = { coverage: { identified_rank: 4 } } as unknown as typeof ctx.fit;
+      return order.run(kernel, ctx).finding;
+    };
+    const beam = at(clampedBeam); // references (f1)
+    expect(beam.trustworthy_values).toBe(4);
+    expect(beam.estimate).toBe(4);
+    expect((beam.third_derivative_jump as { verdict: string }).verdict).toBe('present');
+    const lap = at(laplace()); // references (a): slope jump −1
+    expect(lap.estimate).toBe(2);
+    // exp(−((x−s)/0.15)²): no kink, no third-derivative jump; its fitted |u|u² coefficient is smoothness bias (grows ~w³)
+    const gauss = at((x, s) => Math.exp(-(((x - s) / 0.15) ** 2)));
+    expect((gauss.diagonal_kink as { verdict: string }).verdict).toBe('absent');
+    expect(gauss.estimate).toBeNull();
+    expect((gauss.third_derivative_jump as { at_double_window: number }).at_double_window).toBeGreaterThan(3.5 * (gauss.third_derivative_jump as { statistic: number }).statistic);
   });
 
   it('weighted spectral norm = largest singular value 1/π² of the Green\'s operator of −u″ (Stakgold & Holst; references §4)', () => {

@@ -534,6 +534,10 @@ export function analysisRng(tag: number): Rng {
  * 2·c₅/w. The design depends only on the points, so the coefficient is hᵀy with h = X (XᵀX)⁻¹e₅:
  * computed once, applied to any number of matrices (kernel and replicates) at O(window) per
  * column. Points given in any order; `sorted` lists them by position.
+ * With `derivative = 3` the same fit gives the jump of the third derivative instead,
+ * [∂x³G](s_j) = 12·c₇/w³ (c₇ the coefficient of |u|u², whose third derivative jumps by 12 at 0):
+ * the smoothness signature of a fourth-order operator (jump 1/e(s) there, Coddington & Levinson
+ * ch. 7 (from memory); shared/references §2(f1)).
  */
 export interface JumpFunctionals {
   /** point indices (into x) of the columns that have a full window */
@@ -548,14 +552,15 @@ export interface JumpFunctionals {
 
 const jumpCache = new WeakMap<ArrayLike<number>, Map<number, JumpFunctionals>>();
 
-export function slopeJumpFunctionals(x: Float64Array, halfWidth?: number): JumpFunctionals {
+export function slopeJumpFunctionals(x: Float64Array, halfWidth?: number, derivative: 1 | 3 = 1): JumpFunctionals {
   const n = x.length;
   const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
   const xs = Float64Array.from(ord, (i) => x[i]!);
   const L = xs[n - 1]! - xs[0]!, h = L / (n - 1);
   const w = halfWidth ?? Math.max(8 * h, 0.08 * L);
   let byW = jumpCache.get(x);
-  const hit = byW?.get(w);
+  const key = derivative === 1 ? w : -w; // one cache per derivative (w > 0)
+  const hit = byW?.get(key);
   if (hit) return hit;
   const out: JumpFunctionals = { idx: [], s: [], rows: [], weights: [], halfWidth: w };
   const p = 9;
@@ -574,21 +579,22 @@ export function slopeJumpFunctionals(x: Float64Array, halfWidth?: number): JumpF
       basis((xs[r]! - sj) / w, f);
       for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) A[a]![b] += f[a]! * f[b]!;
     }
-    const e5 = new Float64Array(p); e5[5] = 1;
-    const z = solveSmall(A, e5); // (XᵀX)⁻¹e₅ (XᵀX is symmetric)
+    const term = derivative === 1 ? 5 : 7, factor = derivative === 1 ? 2 / w : 12 / (w * w * w);
+    const e5 = new Float64Array(p); e5[term] = 1;
+    const z = solveSmall(A, e5); // (XᵀX)⁻¹e_term (XᵀX is symmetric)
     if (!z) continue;
     const wt = new Float64Array(m), rows = new Int32Array(m);
     for (let r = lo; r <= hi; r++) {
       basis((xs[r]! - sj) / w, f);
       let v = 0;
       for (let a = 0; a < p; a++) v += f[a]! * z[a]!;
-      wt[r - lo] = 2 * v / w;
+      wt[r - lo] = factor * v;
       rows[r - lo] = ord[r]!;
     }
     out.idx.push(ord[c]!); out.s.push(sj); out.rows.push(rows); out.weights.push(wt);
   }
   if (!byW) { byW = new Map(); jumpCache.set(x, byW); }
-  byW.set(w, out);
+  byW.set(key, out);
   return out;
 }
 
