@@ -11,6 +11,7 @@ import { readKernel, writeKernel, isKernelDir } from './io/kernel.js';
 import { withOutput, type OutputStage } from './io/output.js';
 import { fitStudy, refit } from './fit/index.js';
 import { detectInterfaces } from './analyses/interfaces.js';
+import { comparePredictions } from './analyses/util/a_predictive.js';
 import { diagnose } from './diagnose.js';
 import { analyses } from './analyses/registry.js';
 import { VERSION } from './version.js';
@@ -62,6 +63,99 @@ export function writeFit(stage: OutputStage, fit: FitResult, at: string): void {
 
 /** Confidence of a located interface above which the fit is redone with bases broken there. */
 const INTERFACE_REFIT_CONFIDENCE = 0.9;
+/**
+ * z of the paired per-experiment comparison (util/a_predictive.ts) above which a break at an interface that
+ * is only probably present (existence ≥ 0.5, confidence < 0.9) is kept: one-sided level 0.001. The level is
+ * small because the costs are unequal: a kept break at no real change lets the refitted kernel carry a
+ * jump the interface analysis may then report, while a break wrongly refused only leaves the old fit.
+ */
+const PROBABLE_BREAK_Z = 3.09;
+
+type RefitEntry = FitResult['report']['refits'][number];
+
+/** The previous fit, with a tried refit recorded as not used and why. */
+function declined(previous: FitResult, tried: RefitEntry, reason: string): FitResult {
+  const report = { ...previous.report, refits: [...previous.report.refits, { ...tried, used: false, reason }] } as FitResult['report'] & Record<string, unknown>;
+  return { ...previous, report };
+}
+
+/** Mark the newest refit entry with its breaks and the reason it was used or declined. */
+function annotateLast(fit: FitResult, breaks: number[], reason: string): FitResult {
+  const refits = fit.report.refits.slice();
+  refits[refits.length - 1] = { ...refits[refits.length - 1]!, breaks: breaks.map((t) => Number(t.toPrecision(4))), reason };
+  return { ...fit, report: { ...fit.report, refits } };
+}
+
+/**
+ * Refits with bases broken at interfaces of the kernel in use. Interfaces located with confidence ≥ 0.9
+ * first (kept if the refit cross-validates no worse); then, one at a time in order of their probability,
+ * interfaces that probably exist (existence ≥ 0.5) but are located with less confidence, each kept only if
+ * the paired comparison of prediction errors over the experiments prefers the fit with the added break
+ * at z ≥ PROBABLE_BREAK_Z. Every tried refit is listed in the report's refits with its breaks and reason.
+ */
+function breakRefits(study: Study, fitIn: FitResult, say: (m: string) => void, unconstrained?: FitResult): FitResult {
+  let fit = fitIn;
+  const scalar = fit.kernel.components.in === 1 && fit.kernel.components.out === 1;
+  // candidates: the interfaces of the kernel in use and, when a symmetric refit replaced it, of the
+  // unconstrained kernel too (a symmetric fit can smooth a weakly seen change away); of two within each
+  // other's uncertainty (or 2 % of the length) the better established one is kept
+  const det = detectInterfaces(fit.kernel, fit.noise.replicates).interfaces;
+  if (unconstrained && unconstrained !== fit) {
+    const [lo, hi] = [Math.min(...fit.kernel.pointsOut.data), Math.max(...fit.kernel.pointsOut.data)];
+    for (const i of detectInterfaces(unconstrained.kernel, unconstrained.noise.replicates).interfaces) {
+      const k = det.findIndex((j) => Math.abs(j.location - i.location) <= Math.max(j.uncertainty + i.uncertainty, 0.02 * (hi - lo)));
+      if (k < 0) det.push(i);
+      else if (i.confidence > det[k]!.confidence) det[k] = i;
+    }
+  }
+  const symmetric = fit.report.refits.some((r) => r.used && r.constraint === 'symmetric');
+  const constraint = symmetric ? 'symmetric' as const : 'none' as const;
+  const describe = (i: (typeof det)[number]) => `${i.location.toPrecision(3)} (confidence ${i.confidence.toFixed(2)}, existence ${i.existence.toFixed(2)})`;
+  let breaks: number[] = [];
+  const confident = det.filter((i) => i.confidence >= INTERFACE_REFIT_CONFIDENCE);
+  if (confident.length) {
+    const at = confident.map((i) => i.location);
+    say(`interfaces at ${at.map((t) => t.toPrecision(3)).join(', ')}: refitting with bases broken there`);
+    const r = refit(study, fit, { constraint, breaks: at });
+    const used = r.report.refits[r.report.refits.length - 1]!.used;
+    if (used) breaks = at;
+    fit = annotateLast(r, at, `interface${at.length > 1 ? 's' : ''} at ${confident.map(describe).join(', ')} located with confidence ≥ ${INTERFACE_REFIT_CONFIDENCE}; ${used ? 'used: its cross-validated residual is not larger' : 'not used: its cross-validated residual is larger'}`);
+  }
+  // interfaces that probably exist but are located with less confidence: tried all together (one change
+  // left unresolved spoils a fit broken at the other), then backward elimination: a break is dropped when
+  // the fit without it predicts as well (the paired test does not reach PROBABLE_BREAK_Z)
+  const probable = scalar ? det.filter((i) => i.confidence < INTERFACE_REFIT_CONFIDENCE && i.existence >= 0.5) : [];
+  if (!probable.length) return fit;
+  const what = `interface${probable.length > 1 ? 's' : ''} probably at ${probable.map(describe).join(', ')}, located with confidence below ${INTERFACE_REFIT_CONFIDENCE}`;
+  const level = `one-sided level 0.001`;
+  const testText = (c: ReturnType<typeof comparePredictions>) => `paired comparison of the prediction errors over ${c.experiments} experiments: z = ${c.z.toFixed(2)}, cross-validated loss ${c.relativeGain >= 0 ? 'lower' : 'higher'} by ${(100 * Math.abs(c.relativeGain)).toPrecision(2)} %`;
+  let added = probable.map((i) => i.location);
+  const all = (extra: number[]) => [...breaks, ...extra].sort((p, q) => p - q);
+  say(`interface${added.length > 1 ? 's' : ''} probably at ${added.map((t) => t.toPrecision(3)).join(', ')}: trying bases broken there`);
+  let trial = refit(study, fit, { constraint, breaks: all(added) });
+  let last = trial.report.refits[trial.report.refits.length - 1]!;
+  if (!last.used) return annotateLast(trial, all(added), `${what}; not used: its cross-validated residual is larger`);
+  let cmp = comparePredictions(study, fit, trial);
+  if (!(cmp.z >= PROBABLE_BREAK_Z)) return declined(fit, { ...last, breaks: all(added).map((t) => Number(t.toPrecision(4))) }, `${what}; not used: ${testText(cmp)} (< ${PROBABLE_BREAK_Z}, ${level})`);
+  // backward elimination over the added breaks (each removal a refit; at most as many rounds as breaks)
+  while (added.length > 1) {
+    let weakest: { k: number; fit: FitResult; z: number } | null = null;
+    for (let k = 0; k < added.length; k++) {
+      const without = refit(study, fit, { constraint, breaks: all(added.filter((_, q) => q !== k)) });
+      const c = without.report.refits[without.report.refits.length - 1]!.used ? comparePredictions(study, without, trial).z : Infinity;
+      if (!weakest || c < weakest.z) weakest = { k, fit: without, z: c };
+    }
+    if (!weakest || weakest.z >= PROBABLE_BREAK_Z) break;
+    say(`the break at ${added[weakest.k]!.toPrecision(3)} is not needed (z = ${weakest.z.toFixed(2)})`);
+    added = added.filter((_, q) => q !== weakest!.k);
+    trial = weakest.fit;
+    last = trial.report.refits[trial.report.refits.length - 1]!;
+    cmp = comparePredictions(study, fit, trial);
+  }
+  return annotateLast(trial, all(added), `${what}; used at ${added.map((t) => t.toPrecision(3)).join(', ')}: ${testText(cmp)} (≥ ${PROBABLE_BREAK_Z}, ${level})` +
+    (added.length < probable.length ? `; the other${probable.length - added.length > 1 ? 's' : ''} dropped: the fit without predicts as well` : ''));
+  return fit;
+}
 
 /** Fit a study and diagnose the kernel, refitting under symmetry when the data establish it, then with bases broken at confidently located interfaces. */
 export function diagnoseStudy(study: Study, opts: PipelineOptions): { findings: Findings; fit: FitResult } {
@@ -69,6 +163,7 @@ export function diagnoseStudy(study: Study, opts: PipelineOptions): { findings: 
   const say = opts.progress ?? (() => {});
   say(`fitting ${study.inputs.values.rows} experiments`);
   let fit = fitStudy(study, { seed, assume: opts.assume ?? 'none', progress: say });
+  const unconstrained = fit;
   const inputs: InputFile[] = study.files ?? [];
   const auditStub = audit(opts, new Date(0), 0, '', {});
   if (!opts.noRefit && (opts.assume ?? 'none') === 'none' && analyses.some((a) => a.key === 'self_adjoint')) {
@@ -79,16 +174,9 @@ export function diagnoseStudy(study: Study, opts: PipelineOptions): { findings: 
       fit = refit(study, fit, 'symmetric');
     }
   }
-  // interfaces located with confidence: refit with the bases broken there (kept only if it cross-validates
-  // no worse; 1-D scalar studies only, a no-op otherwise)
-  if (!opts.noRefit && study.dimension === 1 && analyses.some((a) => a.key === 'interfaces')) {
-    const found = detectInterfaces(fit.kernel, fit.noise.replicates).interfaces.filter((i) => i.confidence >= INTERFACE_REFIT_CONFIDENCE).map((i) => i.location);
-    if (found.length) {
-      say(`interfaces at ${found.map((t) => t.toPrecision(3)).join(', ')}: refitting with bases broken there`);
-      const symmetric = fit.report.refits.some((r) => r.used && r.constraint === 'symmetric');
-      fit = refit(study, fit, { constraint: symmetric ? 'symmetric' : 'none', breaks: found });
-    }
-  }
+  // interfaces located with confidence, or probably present and preferred by the data: refit with the bases
+  // broken there (1-D scalar studies only, a no-op otherwise)
+  if (!opts.noRefit && study.dimension === 1 && analyses.some((a) => a.key === 'interfaces')) fit = breakRefits(study, fit, say, unconstrained);
   say('diagnosing the kernel');
   const { findings } = diagnose({ kernel: fit.kernel, noise: fit.noise, fit: fit.report, inputs }, { seed, progress: say, audit: auditStub });
   return { findings, fit };

@@ -111,7 +111,7 @@ export interface FitReport {
     note: string;
   };
   /** which constrained refits were done, and which kernel the findings use */
-  refits: { constraint: string; relative_residual: number; used: boolean }[];
+  refits: { constraint: string; relative_residual: number; used: boolean; breaks?: number[]; reason?: string }[];
   seconds: number;
   seed: number;
 }
