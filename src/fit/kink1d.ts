@@ -518,7 +518,9 @@ export interface KinkChoice {
 /** Candidate basis sizes (nested Legendre bases), in increasing order. */
 export function kinkCandidates(Kmax: number): number[] {
   const base = [3, 4, 6, 8, 10, 13, 16, 20, 24, 28, 32];
-  const c = base.filter((k) => k <= Kmax);
+  // the cap replaces a grid size within 20 % below it (the grid steps by 1.25–1.5; a step of 13 → 14 at the
+  // costliest sizes would add a near-duplicate model)
+  const c = base.filter((k) => k <= Kmax && !(k < Kmax && k > Kmax / 1.2));
   if (!c.includes(Kmax)) c.push(Kmax);
   return c;
 }
@@ -526,7 +528,7 @@ export function kinkCandidates(Kmax: number): number[] {
 /**
  * A resumable GCV search over nested basis sizes for one output component and penalty order. Sizes are
  * tried in increasing order and the search stops once GCV has risen for two sizes in a row (common practice
- * for nested models); an alternative basis that is behind a reference at two sizes in a row is abandoned
+ * for nested models) or once the best GCV is at the rounding floor of the next size (`atRoundingFloor`); an alternative basis that is behind a reference at two sizes in a row is abandoned
  * (same rule). `advanceKinkSearch(s, upTo)` evaluates sizes ≤ upTo only, so a caller can defer the largest
  * (costliest) sizes and resume later with the same outcome as an uninterrupted search.
  */
@@ -570,6 +572,7 @@ export function advanceKinkSearch(st: KinkSearch, upTo = Infinity): void {
     if (g.gcv >= st.prev) { if (++st.rises >= 2) st.done = true; } else st.rises = 0;
     st.prev = g.gcv;
     if (st.behind) { if (st.behind(K, g.gcv)) { if (++st.lagging >= 2) st.done = true; } else st.lagging = 0; }
+    if (atRoundingFloor(st)) st.done = true;
   }
 }
 
@@ -581,14 +584,27 @@ export function reducedSize(Kmax: number, cIn: number, K: number, constraint: Co
 /**
  * A lower bound on the GCV score of every size not yet tried by a search, at every λ: the nested tensor
  * model's residual at any λ is at least `rowBound`, a lower bound on the unpenalised residual of the largest
- * model containing it (`unpenalisedResidual` of the full system); the effective parameters are at most the
- * reduced size p_K, so GCV ≥ n · rowBound / (n − p_K)² at the smallest remaining size (the bound grows with
- * p_K). Infinity when nothing remains; 0 when no bound holds.
+ * model containing it (`unpenalisedResidual` of the full system), and the effective parameters are at least
+ * 0, so GCV = n·RSS/(n − dof)² ≥ n·rowBound/n² = rowBound/n (the denominator can be as large as n², for a
+ * heavily penalised fit; a bound with (n − p_K)² in the denominator would be an upper bound on that factor,
+ * not a lower one). Infinity when nothing remains.
  */
 export function remainingGcvBound(st: KinkSearch, rowBound: number): number {
   if (st.done) return Infinity;
-  const pK = reducedSize(st.Kmax, st.cIn, st.sizes[st.next]!, st.constraint), n = st.sys.nObs;
-  return n > pK ? (n * rowBound) / ((n - pK) * (n - pK)) : 0;
+  return rowBound / st.sys.nObs;
+}
+
+/**
+ * Whether no size after the current best can win by more than rounding: the best GCV is already below the
+ * rounding of the next size's GCV, n·p'·ε·yᵀy/(n − p')² (RSS = yᵀy − fit is formed with an absolute error
+ * up to p'·ε·yᵀy: summation bound over p' spectral terms, Higham 2002 §4.2), so even a residual of exactly
+ * zero there could not be told apart from it (noise-free data fitted to machine precision).
+ */
+function atRoundingFloor(st: KinkSearch): boolean {
+  if (!st.best || st.next >= st.sizes.length) return false;
+  const p = reducedSize(st.Kmax, st.cIn, st.sizes[st.next]!, st.constraint), n = st.sys.nObs;
+  if (!(n > p)) return false;
+  return st.best.gcv.gcv <= (n * p * 2.2e-16 * st.sys.yy) / ((n - p) * (n - p));
 }
 
 /**
@@ -726,27 +742,27 @@ export function rowCoefficients(setup: KinkSetup, theta: Float64Array, i: number
 /** Write the kernel rows of output component p into G ((nOut·cOut) × (nIn·cIn)); θ is zero beyond size K. */
 export function kernelRows(prep: Prepared, setup: KinkSetup, theta: Float64Array, p: number, G: Mat, K = setup.Kmax): void {
   const { nIn, nOut, cIn } = prep;
-  const { Kmax, F, Psi } = setup;
-  const th = new Float64Array(F);
-  const s = prep.pointsIn.data, x = prep.pointsOut.data;
+  const { Kmax, F } = setup;
+  const Psi = setup.Psi.data, s = prep.pointsIn.data, x = prep.pointsOut.data;
+  const th = new Float64Array(F), cPlus = new Float64Array(K), cMinus = new Float64Array(K), cZero = new Float64Array(K);
   const cols = nIn * cIn;
-  // Ψᵀ (K × nIn) so that each row of G is a sum of K contiguous axpys for the smooth and the sign part
-  const PsiT = new Float64Array(K * nIn);
-  for (let k = 0; k < nIn; k++) for (let b = 0; b < K; b++) PsiT[b * nIn + k] = Psi.data[k * Kmax + b]!;
-  const ra = new Float64Array(nIn), rb = new Float64Array(nIn);
   for (let i = 0; i < nOut; i++) {
     rowCoefficients(setup, theta, i, th, K);
     const ro = (p * nOut + i) * cols, xi = x[i]!;
     for (let q = 0; q < cIn; q++) {
+      // G(x_i, s_k) = ψ(s_k)·(a + sign(x_i − s_k) b): one dot product over the contiguous basis row per entry,
+      // with the coefficients of its side of the diagonal
       const base = q * 2 * Kmax;
-      ra.fill(0); rb.fill(0);
-      for (let b = 0; b < K; b++) {
-        const ta = th[base + b]!, tb = th[base + Kmax + b]!, o = b * nIn;
-        if (ta !== 0) for (let k = 0; k < nIn; k++) ra[k] += PsiT[o + k]! * ta;
-        if (tb !== 0) for (let k = 0; k < nIn; k++) rb[k] += PsiT[o + k]! * tb;
-      }
+      for (let b = 0; b < K; b++) { const ta = th[base + b]!, tb = th[base + Kmax + b]!; cPlus[b] = ta + tb; cMinus[b] = ta - tb; cZero[b] = ta; }
       const go = ro + q * nIn;
-      for (let k = 0; k < nIn; k++) G.data[go + k] = ra[k]! + Math.sign(xi - s[k]!) * rb[k]!;
+      for (let k = 0; k < nIn; k++) {
+        const d = xi - s[k]!;
+        const c = d > 0 ? cPlus : d < 0 ? cMinus : cZero;
+        const po = k * Kmax;
+        let acc = 0;
+        for (let b = 0; b < K; b++) acc += Psi[po + b]! * c[b]!;
+        G.data[go + k] = acc;
+      }
     }
   }
 }

@@ -236,6 +236,15 @@ function selectionReplicates(search: KinkSearch, sys: NormalSystem, f: KinkFit, 
   });
 }
 
+/** Whether a family's GCV at size K is behind another family's at the same size (above the frequency-scan size, jump factor 1). */
+function behindReference(ref: KinkChoice): (K: number, gcv: number) => boolean {
+  return (K, g) => {
+    if (K <= SCAN_SIZE) return false;
+    const t = ref.tried.find((q) => q.K === K && q.jump === undefined);
+    return t !== undefined && g > t.gcv;
+  };
+}
+
 /** Highest ωL considered: 48 ≈ 7.6 periods over the interval. */
 const SCAN_TOP_OMEGA_L = 48;
 
@@ -276,7 +285,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       o.progress(`choosing basis size and regularisation by GCV${prep.cOut > 1 ? ` (output component ${p + 1})` : ''}${b.omega !== null ? ' (oscillatory basis)' : ''}`);
       // the jump factor is chosen for the winning basis only (below): the bases are compared at factor 1
       const ref = reference?.[p];
-      const behind = ref ? (K: number, g: number) => { if (K <= SCAN_SIZE) return false; const t = ref.tried.find((q) => q.K === K && q.jump === undefined); return t !== undefined && g > t.gcv; } : undefined;
+      const behind = ref ? behindReference(ref) : undefined;
       const search = startKinkSearch(sys, Kf, prep.cIn, constraint, PENALTY_ORDER, b.degree, sizes, behind);
       advanceKinkSearch(search, upTo);
       searches.push(search);
@@ -318,14 +327,25 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       const enriched = fitBasis(oscillatoryKinkBasis(prep, Kf, scan.omega), [2, ...kinkCandidates(Kf)], plain.choices);
       oscillatory.full = enriched.score;
       if (enriched.score < plain.score) {
-        // the plain family's final score is at least Σ_p n_p · min(best so far, bound on the deferred sizes)
+        // the deferred plain sizes are abandoned by the rule the enriched search follows against the plain one
+        // (behind the other family at two sizes in a row, compared at jump factor 1), or when the plain family's
+        // final score is at least Σ_p n_p · min(best so far, bound on the deferred sizes) > the enriched score
+        plain.searches.forEach((st, p) => {
+          if (st.done) return;
+          st.behind = behindReference(enriched.choices[p]!);
+          // the lag already accumulated over the eagerly searched sizes
+          st.lagging = 0;
+          for (const t of st.tried) if (t.order === st.order) st.lagging = st.behind(t.K, t.gcv) ? st.lagging + 1 : 0;
+          if (st.lagging >= 2) st.done = true;
+        });
         let plainLower = 0;
         plain.searches.forEach((st, p) => {
           const rb = st.done ? 0 : unpenalisedResidual(st.sys);
           plainLower += Math.min(st.best!.gcv.gcv, remainingGcvBound(st, rb)) * plain.systems[p]!.nObs;
         });
-        deferredSkipped = plainLower > enriched.score && plain.searches.some((st) => !st.done);
+        deferredSkipped = plain.searches.some((st) => st.sizes.length > st.next) && (plain.searches.every((st) => st.done) || plainLower > enriched.score);
         if (!deferredSkipped) plain = resume(plain);
+        else plain = settle(plain, plain);
         if (enriched.score < plain.score) chosen = enriched;
         else chosen = plain;
       } else chosen = plain = resume(plain);
@@ -509,7 +529,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   if (oscillatory) {
     hyper.oscillatory_frequency_scanned = oscillatory.omega;
     hyper.oscillatory_gcv_ratio = (oscillatory.full ?? NaN) / plainScore;
-    // the plain sizes above EAGER_PLAIN_SIZE were not searched: their GCV lower bound exceeded the enriched score
+    // the plain sizes above EAGER_PLAIN_SIZE were not searched: the plain family was behind the enriched one at two
+    // sizes in a row, or their GCV lower bound exceeded the enriched score
     hyper.plain_sizes_bounded = deferredSkipped;
   }
   fits.forEach((f, p) => {

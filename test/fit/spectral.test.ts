@@ -75,3 +75,42 @@ describe('pivoted semidefinite Cholesky and the unpenalised least-squares residu
     expect(Math.abs(res - ref.residual)).toBeLessThan(1e-8 * ref.yy);
   });
 });
+
+describe('lower bound on the GCV of sizes not yet searched (kink1d remainingGcvBound)', () => {
+  // GCV(λ) = n‖y − H_λ y‖² / (n − tr H_λ)², H_λ = X(XᵀX + λI)⁻¹Xᵀ (Golub, Heath & Wahba, Technometrics 1979),
+  // evaluated here by brute force with dense solves, independently of spectral.ts. For pure noise the best λ
+  // is large (tr H → 0), so a bound with (n − p)² in the denominator would exceed the true minimum.
+  it('pure-noise least squares: min over λ of GCV ≥ unpenalised residual / n', async () => {
+    const { startKinkSearch, remainingGcvBound } = await import('../../src/fit/kink1d.js');
+    const { cholesky, choleskySolve } = await import('../../src/linalg/decomp.js');
+    const nObs = 30, p = 20, rng = new Rng(11);
+    const X = Float64Array.from({ length: nObs * p }, () => rng.normal());
+    const y = Float64Array.from({ length: nObs }, () => rng.normal());
+    const M = new Float64Array(p * p), r = new Float64Array(p);
+    for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) { let s = 0; for (let i = 0; i < nObs; i++) s += X[i * p + a]! * X[i * p + b]!; M[a * p + b] = s; }
+    for (let a = 0; a < p; a++) { let s = 0; for (let i = 0; i < nObs; i++) s += X[i * p + a]! * y[i]!; r[a] = s; }
+    const yy = y.reduce((s, v) => s + v * v, 0);
+    const sys = { M: { rows: p, cols: p, data: M }, r, yy, nObs };
+    let minGcv = Infinity;
+    for (let t = -8; t <= 8; t += 0.05) {
+      const lambda = Math.pow(10, t);
+      const A = { rows: p, cols: p, data: Float64Array.from(M, (v, u) => v + (u % (p + 1) === 0 ? lambda : 0)) };
+      // one solve for [r | XᵀX]: β = (XᵀX + λI)⁻¹Xᵀy and tr H = tr((XᵀX + λI)⁻¹ XᵀX)
+      const rhs = { rows: p, cols: p + 1, data: new Float64Array(p * (p + 1)) };
+      for (let a = 0; a < p; a++) { rhs.data[a * (p + 1)] = r[a]!; for (let c = 0; c < p; c++) rhs.data[a * (p + 1) + 1 + c] = M[a * p + c]!; }
+      const sol = choleskySolve(cholesky(A)!, rhs).data;
+      let rss = 0;
+      for (let i = 0; i < nObs; i++) { let f = 0; for (let a = 0; a < p; a++) f += X[i * p + a]! * sol[a * (p + 1)]!; rss += (y[i]! - f) ** 2; }
+      let dof = 0;
+      for (let c = 0; c < p; c++) dof += sol[c * (p + 1) + 1 + c]!;
+      minGcv = Math.min(minGcv, (nObs * rss) / (nObs - dof) ** 2);
+    }
+    const B = unpenalisedResidual(sys);
+    const st = startKinkSearch(sys, 2, 1, 'none', 2, undefined, [2]);
+    const bound = remainingGcvBound(st, B);
+    expect(bound).toBeCloseTo(B / nObs, 12);
+    expect(minGcv).toBeGreaterThanOrEqual(bound);
+    // the form n·B/(n − p)² is not a lower bound here
+    expect((nObs * B) / (nObs - p) ** 2).toBeGreaterThan(minGcv);
+  });
+});
