@@ -361,8 +361,11 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   const f4 = adequate ? { theta: NaN, ks: NaN, residual: NaN } : fitWave4(kernel.G, x, segs, kmax);
   const cubicResidual = adequate ? NaN : Math.sqrt(objective4(kernel.G, x, segs, 0) / E);
   const adequate4 = !adequate && f4.residual <= allowance, identified = !adequate && cubicResidual > allowance;
-  // replicate refits only when the fourth-order fit can vote (adequate and identified)
-  const rf4 = adequate4 && identified ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, x, segs, kmax, f4.ks)) : [];
+  // replicate refits only when the fourth-order fit can vote (adequate). When plain cubics already
+  // explain the segments, θ is weakly determined near 0 and a refit started at the estimate would
+  // understate its spread: each replicate is then refitted from the full grid, so that the vote
+  // (θ's one-sided 95 % bound below the lowest mode, `decideAbove`) rests on θ's real spread
+  const rf4 = adequate4 ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, x, segs, kmax, identified ? f4.ks : undefined)) : [];
   const fourth: FourthOrderWave = {
     theta: f4.theta, residual: f4.residual, thetaSd: rf4.length >= 3 ? std(rf4.map((r) => r.theta)) : null,
     adequate: adequate4, identified, cubicResidual,
@@ -477,7 +480,7 @@ export const oscillation: Analysis<Findings['oscillation']> = {
     const votes: Vote[] = [];
     const res = resolution(kernel);
     if (lw?.adequate) votes.push({ by: 'second-order fit', ...decideAbove(lw.theta, lw.thetaSd ?? NaN, res) });
-    if (lw?.fourth.adequate && lw.fourth.identified) votes.push({ by: 'fourth-order fit', ...decideAbove(lw.fourth.theta, lw.fourth.thetaSd ?? NaN, res) });
+    if (lw?.fourth.adequate) votes.push({ by: 'fourth-order fit', ...decideAbove(lw.fourth.theta, lw.fourth.thetaSd ?? NaN, res) });
     // the sign test counts only when it decides (it is undecided by construction with few trusted values)
     if (sign.decision !== 'inconclusive') votes.push({ by: 'spectrum sign', decision: sign.decision, confidence: sign.confidence });
     let verdict: YesNo = 'inconclusive', confidence = 0.5;

@@ -42,6 +42,18 @@ describe('oscillation and screening', () => {
     // a second-order model cannot explain the beam's columns
     expect(o.model_adequate).toBe(false);
   });
+  it('clamped beam with only 4 trustworthy singular values (no sign test): the fourth-order column fit alone says no oscillation (references (f1); Roark, from memory)', () => {
+    const { kernel, ctx } = noisy(kernel1d(clampedBeam, 160), 0.001, 55);
+    ctx.fit = { coverage: { identified_rank: 4 } } as unknown as typeof ctx.fit;
+    ctx.results['self_adjoint'] = selfAdjoint.run(kernel, ctx);
+    const o = oscillation.run(kernel, ctx).finding;
+    expect(o.trustworthy_values).toBe(4);
+    expect(o.negative_eigenvalues).toBeNull(); // the sign test needs 6
+    // the columns are cubics (θ = 0 explains them), and θ's replicate spread keeps it below the lowest mode π²
+    expect(o.fourth_order_adequate).toBe(true);
+    expect(o.k_squared_fourth_order as number).toBeLessThan(Math.PI ** 2);
+    expect(o.verdict).toBe('no');
+  });
   it('2-D: the sign of the spectrum separates −Δ − k² (k² above the lowest mode) from −Δ on the unit square', () => {
     // bilinear eigenfunction series G = Σ φ_mn(x) φ_mn(s) / (π²(m² + n²) − k²), φ_mn = 2 sin mπx sin nπy
     // (Courant–Hilbert I ch. V; Stakgold & Holst, from memory), truncated at m, n ≤ 24
