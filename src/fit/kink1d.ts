@@ -210,6 +210,8 @@ function sharedSet(sets: number[][]): number[] | null {
  * rounding.
  */
 function setupShared(prep: Prepared, basis: KinkBasis, J: number[]): KinkSetup {
+  // the phases are separate small functions: V8 compiles each on its own once it is hot, instead of
+  // recompiling one large function (with everything inlined) at every loop that becomes hot
   const { nIn, nOut, cOut, cIn } = prep;
   const { Phi, Psi } = basis;
   const Kmax = Phi.cols, KC = Kmax * cIn, F = 2 * KC;
@@ -218,124 +220,142 @@ function setupShared(prep: Prepared, basis: KinkBasis, J: number[]): KinkSetup {
   const xbar = new Float64Array(nc * F), ubar = new Float64Array(nc);
   // centred weighted forcings, one contiguous vector per input column: Ac[col·nJ + n]
   const fbar = new Float64Array(cols), Ac = new Float64Array(cols * nJ);
-  for (let col = 0; col < cols; col++) {
-    let m = 0;
-    for (const j of J) m += prep.FW.data[j * cols + col]!;
-    m /= nJ;
-    fbar[col] = m;
-    const o = col * nJ;
-    for (let n = 0; n < nJ; n++) Ac[o + n] = prep.FW.data[J[n]! * cols + col]! - m;
-  }
+  centreColumns(prep.FW.data, cols, J, fbar, Ac);
   // centred responses per (component, sensor): Uc[c·nJ + n]
   const Uc = new Float64Array(nc * nJ);
-  for (let c = 0; c < nc; c++) {
-    let m = 0;
-    for (const j of J) m += prep.U.data[j * colsOut + c]!;
-    m /= nJ;
-    ubar[c] = m;
-    let yy = 0;
-    for (let n = 0; n < nJ; n++) { const u = prep.U.data[J[n]! * colsOut + c]! - m; Uc[c * nJ + n] = u; yy += u * u; }
-    rowYY[c] = yy;
-    rowN[c] = nJ;
-  }
+  centreColumns(prep.U.data, colsOut, J, ubar, Uc);
+  for (let c = 0; c < nc; c++) { rowYY[c] = sumSquares(Uc, c * nJ, nJ); rowN[c] = nJ; }
   // Z (nJ × KC, column-major: Zt[m·nJ + n]) and its mean-forcing counterpart zbar
   const Zt = new Float64Array(KC * nJ), zbar = new Float64Array(KC);
-  for (let q = 0; q < cIn; q++) for (let k = 0; k < nIn; k++) {
-    const col = q * nIn + k, ao = col * nJ, po = k * Kmax;
-    for (let b = 0; b < Kmax; b++) {
-      const v = Psi.data[po + b]!;
-      if (v === 0) continue;
-      const zo = (q * Kmax + b) * nJ;
-      for (let n = 0; n < nJ; n++) Zt[zo + n] += Ac[ao + n]! * v;
-      zbar[q * Kmax + b] += fbar[col]! * v;
-    }
-  }
-  const dot = (x: Float64Array, xo: number, y: Float64Array, yo: number): number => {
-    let s = 0;
-    for (let n = 0; n < nJ; n++) s += x[xo + n]! * y[yo + n]!;
-    return s;
-  };
+  for (let q = 0; q < cIn; q++) for (let k = 0; k < nIn; k++) accumulatePoint(Ac, fbar, Psi.data, q * nIn + k, k * Kmax, q * Kmax, Kmax, nJ, Zt, zbar);
   const ZZ = new Float64Array(KC * KC);
-  for (let m = 0; m < KC; m++) for (let m2 = m; m2 < KC; m2++) { const v = dot(Zt, m * nJ, Zt, m2 * nJ); ZZ[m * KC + m2] = v; ZZ[m2 * KC + m] = v; }
+  for (let m = 0; m < KC; m++) for (let m2 = m; m2 < KC; m2++) { const v = dotCols(Zt, m * nJ, Zt, m2 * nJ, nJ); ZZ[m * KC + m2] = v; ZZ[m2 * KC + m] = v; }
   // running state over the sweep: L (column-major like Zt), A = ZᵀL, B = LᵀL, lbar (mean-forcing L)
   const Lt = new Float64Array(KC * nJ), A = new Float64Array(KC * KC), B = new Float64Array(KC * KC), lbar = new Float64Array(KC);
   const la = new Float64Array(KC), za = new Float64Array(KC);
-  const addPoint = (k: number) => {
-    for (let q = 0; q < cIn; q++) {
-      const col = q * nIn + k, ao = col * nJ, po = k * Kmax, qo = q * Kmax;
-      let aa = 0;
-      for (let n = 0; n < nJ; n++) aa += Ac[ao + n]! * Ac[ao + n]!;
-      for (let m = 0; m < KC; m++) { la[m] = dot(Lt, m * nJ, Ac, ao); za[m] = dot(Zt, m * nJ, Ac, ao); }
-      // B += la vᵀ + v laᵀ + aa v vᵀ;  A += za vᵀ  (v = ψ(s_k) in block q)
-      for (let b = 0; b < Kmax; b++) {
-        const vb = Psi.data[po + b]!;
-        if (vb === 0) continue;
-        const cb = qo + b;
-        for (let m = 0; m < KC; m++) { B[m * KC + cb] += la[m]! * vb; B[cb * KC + m] += la[m]! * vb; A[m * KC + cb] += za[m]! * vb; }
-        for (let b2 = 0; b2 < Kmax; b2++) B[cb * KC + qo + b2] += aa * vb * Psi.data[po + b2]!;
-        const lo = cb * nJ;
-        for (let n = 0; n < nJ; n++) Lt[lo + n] += Ac[ao + n]! * vb;
-        lbar[cb] += fbar[col]! * vb;
-      }
-    }
-  };
   const s = prep.pointsIn.data, x = prep.pointsOut.data;
   const order = Array.from({ length: nIn }, (_, k) => k).sort((a, b) => s[a]! - s[b]!);
   const outOrder = Array.from({ length: nOut }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
   // per sensor: E = Σ_e a_e v_eᵀ over the points at x_i (rank ≤ their count), and its products
   const LE = new Float64Array(KC * KC), ZE = new Float64Array(KC * KC), EE = new Float64Array(KC * KC);
   const Lu = new Float64Array(KC), Zu = new Float64Array(KC), Eu = new Float64Array(KC), ebar = new Float64Array(KC);
+  const zf = new Int32Array(KC);
+  for (let m = 0; m < KC; m++) zf[m] = Math.floor(m / Kmax) * 2 * Kmax + (m % Kmax);
   let ptr = 0;
   for (const i of outOrder) {
     const xi = x[i]!;
-    while (ptr < nIn && s[order[ptr]!]! < xi) { addPoint(order[ptr]!); ptr++; }
+    while (ptr < nIn && s[order[ptr]!]! < xi) {
+      const k = order[ptr]!;
+      for (let q = 0; q < cIn; q++) {
+        const col = q * nIn + k, ao = col * nJ;
+        projectColumn(Lt, Zt, Ac, ao, KC, nJ, la, za);
+        sweepPoint(Psi.data, k * Kmax, q * Kmax, Kmax, KC, sumSquares(Ac, ao, nJ), la, za, A, B);
+        accumulatePoint(Ac, fbar, Psi.data, col, k * Kmax, q * Kmax, Kmax, nJ, Lt, lbar);
+      }
+      ptr++;
+    }
     LE.fill(0); ZE.fill(0); EE.fill(0); ebar.fill(0);
     const eCols: number[] = [];
     for (let p2 = ptr; p2 < nIn && s[order[p2]!]! === xi; p2++) for (let q = 0; q < cIn; q++) eCols.push(q * nIn + order[p2]!);
-    // v_e: ψ(s_k) placed in block q
-    const vOf = (col: number, m: number): number => { const q = Math.floor(col / nIn), k = col - q * nIn, b = m - q * Kmax; return b >= 0 && b < Kmax ? Psi.data[k * Kmax + b]! : 0; };
     for (const col of eCols) {
-      const ao = col * nJ, q = Math.floor(col / nIn), qo = q * Kmax;
-      for (let m = 0; m < KC; m++) { la[m] = dot(Lt, m * nJ, Ac, ao); za[m] = dot(Zt, m * nJ, Ac, ao); }
-      for (let b = qo; b < qo + Kmax; b++) {
-        const vb = vOf(col, b);
+      const ao = col * nJ, q = Math.floor(col / nIn), k = col - q * nIn, qo = q * Kmax;
+      projectColumn(Lt, Zt, Ac, ao, KC, nJ, la, za);
+      for (let b = 0; b < Kmax; b++) {
+        const vb = Psi.data[k * Kmax + b]!;
         if (vb === 0) continue;
-        ebar[b] += fbar[col]! * vb;
-        for (let m = 0; m < KC; m++) { LE[m * KC + b] += la[m]! * vb; ZE[m * KC + b] += za[m]! * vb; }
+        ebar[qo + b] += fbar[col]! * vb;
+        for (let m = 0; m < KC; m++) { LE[m * KC + qo + b] += la[m]! * vb; ZE[m * KC + qo + b] += za[m]! * vb; }
       }
       for (const col2 of eCols) {
-        const g = dot(Ac, ao, Ac, col2 * nJ), q2 = Math.floor(col2 / nIn) * Kmax;
-        for (let b = qo; b < qo + Kmax; b++) { const vb = vOf(col, b); if (vb === 0) continue; for (let b2 = q2; b2 < q2 + Kmax; b2++) EE[b * KC + b2] += g * vb * vOf(col2, b2); }
+        const g = dotCols(Ac, ao, Ac, col2 * nJ, nJ), q2 = Math.floor(col2 / nIn), k2 = col2 - q2 * nIn;
+        for (let b = 0; b < Kmax; b++) { const vb = Psi.data[k * Kmax + b]!; if (vb === 0) continue; for (let b2 = 0; b2 < Kmax; b2++) EE[(qo + b) * KC + q2 * Kmax + b2] += g * vb * Psi.data[k2 * Kmax + b2]!; }
       }
     }
     const hasE = eCols.length > 0;
     for (let p = 0; p < cOut; p++) {
       const c = p * nOut + i, uo = c * nJ;
-      for (let m = 0; m < KC; m++) {
-        Lu[m] = dot(Lt, m * nJ, Uc, uo); Zu[m] = dot(Zt, m * nJ, Uc, uo); Eu[m] = 0;
-      }
-      if (hasE) for (const col of eCols) { const g = dot(Ac, col * nJ, Uc, uo); const qo = Math.floor(col / nIn) * Kmax; for (let b = qo; b < qo + Kmax; b++) Eu[b] += g * vOf(col, b); }
-      const Q = rowQ.subarray(c * F * F, (c + 1) * F * F), r = rowR.subarray(c * F, (c + 1) * F), xb = xbar.subarray(c * F, (c + 1) * F);
-      const fz = (m: number) => Math.floor(m / Kmax) * 2 * Kmax + (m % Kmax);
-      for (let m = 0; m < KC; m++) {
-        const f0 = fz(m), f1 = f0 + Kmax;
-        r[f0] = Zu[m]!; r[f1] = 2 * Lu[m]! + Eu[m]! - Zu[m]!;
-        xb[f0] = zbar[m]!; xb[f1] = 2 * lbar[m]! + ebar[m]! - zbar[m]!;
-        for (let m2 = 0; m2 < KC; m2++) {
-          const g0 = fz(m2), g1 = g0 + Kmax;
-          const mm = m * KC + m2, tt = m2 * KC + m;
-          // Y = 2L + E − Z:  ZᵀY = 2A + ZE − ZZ;  YᵀY = 4B + 2(LE + LEᵀ) + EE − 2(A + Aᵀ) − (ZE + ZEᵀ) + ZZ
-          const zy = 2 * A[mm]! + ZE[mm]! - ZZ[mm]!;
-          const yy = 4 * B[mm]! + 2 * (LE[mm]! + LE[tt]!) + EE[mm]! - 2 * (A[mm]! + A[tt]!) - (ZE[mm]! + ZE[tt]!) + ZZ[mm]!;
-          Q[f0 * F + g0] = ZZ[mm]!;
-          Q[f0 * F + g1] = zy;
-          Q[g1 * F + f0] = zy;
-          Q[f1 * F + g1] = yy;
-        }
-      }
+      projectColumn(Lt, Zt, Uc, uo, KC, nJ, Lu, Zu);
+      Eu.fill(0);
+      if (hasE) for (const col of eCols) { const g = dotCols(Ac, col * nJ, Uc, uo, nJ); const q = Math.floor(col / nIn), k = col - q * nIn; for (let b = 0; b < Kmax; b++) Eu[q * Kmax + b] += g * Psi.data[k * Kmax + b]!; }
+      sensorSystem(KC, Kmax, F, zf, ZZ, A, B, LE, ZE, EE, Zu, Lu, Eu, zbar, lbar, ebar, rowQ, rowR, xbar, c);
     }
   }
   return { Kmax, Phi, Psi, F, rowQ, rowR, rowYY, rowN, xbar, ubar, degree: basis.degree, omega: basis.omega };
+}
+
+/** Column means over the experiments J of a row-major (experiments × cols) array, and the centred columns (col·|J| + n). */
+function centreColumns(data: Float64Array, cols: number, J: number[], mean: Float64Array, out: Float64Array): void {
+  const nJ = J.length;
+  for (let col = 0; col < cols; col++) {
+    let m = 0;
+    for (let n = 0; n < nJ; n++) m += data[J[n]! * cols + col]!;
+    m /= nJ;
+    mean[col] = m;
+    const o = col * nJ;
+    for (let n = 0; n < nJ; n++) out[o + n] = data[J[n]! * cols + col]! - m;
+  }
+}
+
+function sumSquares(x: Float64Array, o: number, n: number): number {
+  let s = 0;
+  for (let k = 0; k < n; k++) s += x[o + k]! * x[o + k]!;
+  return s;
+}
+
+function dotCols(x: Float64Array, xo: number, y: Float64Array, yo: number, n: number): number {
+  let s = 0;
+  for (let k = 0; k < n; k++) s += x[xo + k]! * y[yo + k]!;
+  return s;
+}
+
+/** target[(qo + b)·nJ + ·] += a_col ψ_b(s_k) and tbar[qo + b] += fbar_col ψ_b(s_k) for one input column */
+function accumulatePoint(Ac: Float64Array, fbar: Float64Array, Psi: Float64Array, col: number, po: number, qo: number, Kmax: number, nJ: number, target: Float64Array, tbar: Float64Array): void {
+  const ao = col * nJ;
+  for (let b = 0; b < Kmax; b++) {
+    const v = Psi[po + b]!;
+    if (v === 0) continue;
+    const to = (qo + b) * nJ;
+    for (let n = 0; n < nJ; n++) target[to + n] += Ac[ao + n]! * v;
+    tbar[qo + b] += fbar[col]! * v;
+  }
+}
+
+/** la = Lᵀa, za = Zᵀa for one column a (at offset ao) */
+function projectColumn(Lt: Float64Array, Zt: Float64Array, a: Float64Array, ao: number, KC: number, nJ: number, la: Float64Array, za: Float64Array): void {
+  for (let m = 0; m < KC; m++) { la[m] = dotCols(Lt, m * nJ, a, ao, nJ); za[m] = dotCols(Zt, m * nJ, a, ao, nJ); }
+}
+
+/** B += la vᵀ + v laᵀ + aa v vᵀ;  A += za vᵀ  (v = ψ(s_k) in block qo) */
+function sweepPoint(Psi: Float64Array, po: number, qo: number, Kmax: number, KC: number, aa: number, la: Float64Array, za: Float64Array, A: Float64Array, B: Float64Array): void {
+  for (let b = 0; b < Kmax; b++) {
+    const vb = Psi[po + b]!;
+    if (vb === 0) continue;
+    const cb = qo + b;
+    for (let m = 0; m < KC; m++) { B[m * KC + cb] += la[m]! * vb; B[cb * KC + m] += la[m]! * vb; A[m * KC + cb] += za[m]! * vb; }
+    for (let b2 = 0; b2 < Kmax; b2++) B[cb * KC + qo + b2] += aa * vb * Psi[po + b2]!;
+  }
+}
+
+/** Sensor c's Gram, right-hand side and mean feature row from the sweep's running products (features [Z, Y], Y = 2L + E − Z) */
+function sensorSystem(KC: number, Kmax: number, F: number, zf: Int32Array, ZZ: Float64Array, A: Float64Array, B: Float64Array, LE: Float64Array, ZE: Float64Array, EE: Float64Array,
+  Zu: Float64Array, Lu: Float64Array, Eu: Float64Array, zbar: Float64Array, lbar: Float64Array, ebar: Float64Array, rowQ: Float64Array, rowR: Float64Array, xbar: Float64Array, c: number): void {
+  const Qo = c * F * F, ro = c * F;
+  for (let m = 0; m < KC; m++) {
+    const f0 = zf[m]!, f1 = f0 + Kmax;
+    rowR[ro + f0] = Zu[m]!; rowR[ro + f1] = 2 * Lu[m]! + Eu[m]! - Zu[m]!;
+    xbar[ro + f0] = zbar[m]!; xbar[ro + f1] = 2 * lbar[m]! + ebar[m]! - zbar[m]!;
+    for (let m2 = 0; m2 < KC; m2++) {
+      const g0 = zf[m2]!, g1 = g0 + Kmax;
+      const mm = m * KC + m2, tt = m2 * KC + m;
+      // Y = 2L + E − Z:  ZᵀY = 2A + ZE − ZZ;  YᵀY = 4B + 2(LE + LEᵀ) + EE − 2(A + Aᵀ) − (ZE + ZEᵀ) + ZZ
+      const zy = 2 * A[mm]! + ZE[mm]! - ZZ[mm]!;
+      const yy = 4 * B[mm]! + 2 * (LE[mm]! + LE[tt]!) + EE[mm]! - 2 * (A[mm]! + A[tt]!) - (ZE[mm]! + ZE[tt]!) + ZZ[mm]!;
+      rowQ[Qo + f0 * F + g0] = ZZ[mm]!;
+      rowQ[Qo + f0 * F + g1] = zy;
+      rowQ[Qo + g1 * F + f0] = zy;
+      rowQ[Qo + f1 * F + g1] = yy;
+    }
+  }
 }
 
 /** Centre each sensor's data over its measured experiments and store the per-sensor Gram matrices at Kmax. */
