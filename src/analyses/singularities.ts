@@ -454,6 +454,7 @@ export const singularities: Analysis<F> = {
         recurrence: round(s.recurrence), replicate_hits: hits, replicates: reps.length,
       });
     }
+    mergeSameSite(finding, tol);
     finding.sort((a, b) => (a.location as number) - (b.location as number));
     // an empty list claims absence only where a singularity of the smallest size we report
     // would have been found at this noise level (injection test on u_h and on a row of G)
@@ -486,6 +487,27 @@ export const singularities: Analysis<F> = {
     return { finding, evidence };
   },
 };
+
+/**
+ * One point, one entry: a layer at x0 shows both in u_h and as a fixed singularity of the kernel
+ * (the turning point of an internal layer, for instance). Entries of different sources closer
+ * than twice the larger of their widths (a pole at distance δ from the axis places its feature
+ * only to within about δ; never closer than `tol`) are the same site: the more confident entry
+ * is kept and the other's source is listed under `also_in`.
+ */
+export function mergeSameSite(finding: F, tol: number): void {
+  for (let a = 0; a < finding.length; a++) {
+    for (let b = finding.length - 1; b > a; b--) {
+      const p = finding[a]!, q = finding[b]!;
+      if (p.source === q.source) continue;
+      if (Math.abs((p.location as number) - (q.location as number)) >= Math.max(tol, 2 * Math.max(p.width as number, q.width as number))) continue;
+      const [keep, drop] = (q.confidence as number) > (p.confidence as number) ? [q, p] : [p, q];
+      keep.also_in = drop.source;
+      finding[a] = keep;
+      finding.splice(b, 1);
+    }
+  }
+}
 
 function pwOf(p: { homogeneous: number | null; kernel: number } | null): number {
   return !p ? 0 : p.homogeneous === null ? p.kernel : Math.min(p.homogeneous, p.kernel);

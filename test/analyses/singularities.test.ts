@@ -81,6 +81,25 @@ describe('singularities analysis on kernels', () => {
   });
 });
 
+describe('one site, one entry', () => {
+  it('a layer in u_h and a fixed kink of G at the same point are one singularity (entry (e) a = 1 | 10 at 0.45; tanh poles at x0 ± iπδ/2)', () => {
+    const m = modalKernel(piecewise(1, 10, 0.45), { rel: 0, reps: 4, seed: 5, K: 80, homogeneous: (t) => Math.tanh((t - 0.45) / 0.015), hNoise: 0.002 });
+    const out = singularities.run(m.kernel, ctxOf(m.replicates, m.homogeneousReplicates));
+    expect(out.finding.length).toBe(1);
+    const f = out.finding[0]!;
+    expect(Math.abs((f.location as number) - 0.45)).toBeLessThan(0.02);
+    expect([f.source, f.also_in].sort()).toEqual(['homogeneous', 'kernel']);
+  });
+  it('two sites farther apart than their widths stay two (kink at 0.4 as above, layer at 0.75)', () => {
+    const m = modalKernel(piecewise(1, 10, 0.4), { rel: 0, reps: 4, seed: 1, K: 80, homogeneous: (t) => Math.tanh((t - 0.75) / 0.015), hNoise: 0.002 });
+    const out = singularities.run(m.kernel, ctxOf(m.replicates, m.homogeneousReplicates));
+    const xs = out.finding.map((f) => f.location as number).sort((a, b) => a - b);
+    expect(xs.length).toBe(2);
+    expect(Math.abs(xs[0]! - 0.4)).toBeLessThan(0.02);
+    expect(Math.abs(xs[1]! - 0.75)).toBeLessThan(0.02);
+  });
+});
+
 describe('singularity verdicts: numerically zero u_h, undecided at high noise', () => {
   const ctxOf = (m: ReturnType<typeof modalKernel>) => ({ noise: { replicates: m.replicates, homogeneousReplicates: m.homogeneousReplicates, source: 'bootstrap' as const, assumption: 'test' }, rng: new Rng(1), options: {}, results: {} });
   it('a homogeneous part at round-off level (1e-12 of the response) is not scanned', () => {
