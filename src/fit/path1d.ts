@@ -190,7 +190,7 @@ function selectionReplicates(search: KinkSearch, sys: NormalSystem, f: KinkFit, 
     const xi = new Float64Array(rank), z = new Float64Array(nT);
     let xx = 0;
     for (let v = 0; v < rank; v++) { xi[v] = rng.normal(); xx += xi[v]! * xi[v]!; }
-    for (let u = 0; u < nT; u++) { let acc = 0; const lo = u * nT, top = Math.min(u, rank - 1); for (let v = 0; v <= top; v++) acc += L[lo + v]! * xi[v]!; z[perm[u]!] = sigma * acc; }
+    lowerTimes(L, perm, nT, rank, xi, sigma, z);
     let tz = 0;
     for (let e = 0; e < selFit.length; e++) tz += f.eta[e]! * z[selFit[e]!]!;
     yys[r] = yyHat + 2 * tz + sigma * sigma * (xx + chiSquare(rng, sys.nObs - rank));
@@ -234,6 +234,45 @@ function selectionReplicates(search: KinkSearch, sys: NormalSystem, f: KinkFit, 
     for (let e = 0; e < x.length; e++) x[e] = x[e]! * bt.sp.isqrtP![e]!;
     return { theta: expand(bt.map, x, P0), K: bt.K };
   });
+}
+
+/** z[perm[u]] = σ (L ξ)_u for the n × rank lower-triangular factor L (row-major, n × n storage) */
+function lowerTimes(L: Float64Array, perm: Int32Array, n: number, rank: number, xi: Float64Array, sigma: number, z: Float64Array): void {
+  for (let u = 0; u < n; u++) {
+    let acc = 0;
+    const lo = u * n, top = Math.min(u, rank - 1);
+    for (let v = 0; v <= top; v++) acc += L[lo + v]! * xi[v]!;
+    z[perm[u]!] = sigma * acc;
+  }
+}
+
+/** Σ (a − b)² over two equally long arrays */
+function squaredDistance(a: Float64Array, b: Float64Array): number {
+  let s = 0;
+  for (let u = 0; u < a.length; u++) s += (a[u]! - b[u]!) ** 2;
+  return s;
+}
+
+function subtractInto(a: Float64Array, b: Float64Array, out: Float64Array): void {
+  for (let u = 0; u < out.length; u++) out[u] = a[u]! - b[u]!;
+}
+
+/** target[off + u] += c · v[u] */
+function addScaled(target: Float64Array, off: number, v: Float64Array, c: number): void {
+  for (let u = 0; u < v.length; u++) target[off + u] += c * v[u]!;
+}
+
+/** A replicate's homogeneous part: ū_c + its noise mean − x̄_c·θ_row (per sensor, from the replicate's coefficients) */
+function replicateHomogeneous(prep: Prepared, setup: KinkSetup, thetas: Float64Array[], Ks: number[], meanEps: Float64Array, th: Float64Array): Float64Array {
+  const F = setup.F, u = new Float64Array(prep.nOut * prep.cOut);
+  for (let p = 0; p < prep.cOut; p++) for (let i = 0; i < prep.nOut; i++) {
+    const c = p * prep.nOut + i;
+    rowCoefficients(setup, thetas[p]!, i, th, Ks[p]!);
+    let s = 0;
+    for (let f = 0; f < F; f++) s += setup.xbar[c * F + f]! * th[f]!;
+    u[c] = setup.ubar[c]! + meanEps[c]! - s;
+  }
+  return u;
 }
 
 /** Whether a family's GCV at size K is behind another family's at the same size (above the frequency-scan size, jump factor 1). */
@@ -413,9 +452,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     const G1 = zeros(prep.nOut, prep.nIn * prep.cIn), G2 = zeros(prep.nOut, prep.nIn * prep.cIn), G0 = zeros(prep.nOut, prep.nIn * prep.cIn);
     const put = (th: Float64Array, M: Mat) => { const full = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn); kernelRows(prep, setup, th, p, full); M.data.set(full.data.subarray(p * prep.nOut * M.cols, (p + 1) * prep.nOut * M.cols)); };
     put(thetas[p]!, G0); put(at(t1), G1); put(at(t2), G2);
-    let d1 = 0, d2 = 0;
-    for (let u = 0; u < G0.data.length; u++) { d1 += (G0.data[u]! - G1.data[u]!) ** 2; d2 += (G1.data[u]! - G2.data[u]!) ** 2; }
-    d1 = Math.sqrt(d1); d2 = Math.sqrt(d2);
+    const d1 = Math.sqrt(squaredDistance(G0.data, G1.data)), d2 = Math.sqrt(squaredDistance(G1.data, G2.data));
     if (d1 > 0) {
       // fits that do not converge with the size (d1 ≥ d2) give no rate to extrapolate: the data fit Ĝ_K and Ĝ_K'
       // about equally well, and two estimates with uncorrelated errors of equal size e differ by √2·e in the
@@ -423,7 +460,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
       const e = d1 < d2 ? d1 * Math.pow(d1 / d2, (f.K - t1.K) / (t1.K - t2.K)) : d1 / Math.SQRT2;
       trunc2 += e * e;
       const D = zeros(G0.rows, G0.cols);
-      for (let u = 0; u < D.data.length; u++) D.data[u] = G0.data[u]! - G1.data[u]!;
+      subtractInto(G0.data, G1.data, D.data);
       truncDirs.push({ p, D, scale: e / d1 });
     }
   });
@@ -435,21 +472,9 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
     for (let p = 0; p < prep.cOut; p++) kernelRows(prep, setup, tr[p]!, p, Gr, trK[p]!);
     // model-size uncertainty: ± e_K / d1 times the difference to the next smaller size (antithetic signs,
     // so the second moment is exact), so that the replicates' spread also carries the truncation error
-    for (const td of truncDirs) {
-      const xi = (r % 2 === 0 ? 1 : -1) * td.scale;
-      const off = td.p * prep.nOut * Gr.cols;
-      for (let u = 0; u < td.D.data.length; u++) Gr.data[off + u] += xi * td.D.data[u]!;
-    }
+    for (const td of truncDirs) addScaled(Gr.data, td.p * prep.nOut * Gr.cols, td.D.data, (r % 2 === 0 ? 1 : -1) * td.scale);
     repG.push(Gr);
-    const u = new Float64Array(colsOut);
-    for (let p = 0; p < prep.cOut; p++) for (let i = 0; i < prep.nOut; i++) {
-      const c = p * prep.nOut + i;
-      rowCoefficients(setup, tr[p]!, i, th, trK[p]!);
-      let s = 0;
-      for (let f = 0; f < F; f++) s += setup.xbar[c * F + f]! * th[f]!;
-      u[c] = setup.ubar[c]! + meanEps[r]![c]! - s;
-    }
-    repUh.push(u);
+    repUh.push(replicateHomogeneous(prep, setup, tr, trK, meanEps[r]!, th));
   }
 
   let scaling = o.scaling ? scalingTest(responseSize(predE, resN), resE, resN) : null;

@@ -37,61 +37,67 @@ export interface RidgeSpectrum {
 }
 
 /** Eigenvalues of a symmetric matrix and the eigen-coordinates of one vector (no eigenvectors formed). */
-export function eigenCoordinates(Ain: Mat, v: Float64Array, keep = false): { values: Float64Array; coords: Float64Array; tri?: Tridiagonal } {
+export function eigenCoordinates(Ain: Mat, v: Float64Array, keep = false, rebuild?: () => Mat): { values: Float64Array; coords: Float64Array; tri?: Tridiagonal } {
   const n = Ain.rows;
-  const A = new Float64Array(Ain.data);
+  // with `rebuild` the caller hands over Ain's storage (it holds the Householder vectors afterwards) and
+  // can rebuild the matrix for the dense fallback
+  const A = rebuild ? Ain.data : new Float64Array(Ain.data);
   const z = new Float64Array(v);
   const d = new Float64Array(n), e = new Float64Array(n);
   const u = new Float64Array(n), w = new Float64Array(n);
-  // Householder: for k = 0..n−3 annihilate A[k+2.., k]
-  for (let k = 0; k < n - 2; k++) {
-    const m = n - k - 1; // length of the sub-column
-    let alpha = 0;
-    for (let i = k + 1; i < n; i++) alpha += A[i * n + k]! * A[i * n + k]!;
-    alpha = Math.sqrt(alpha);
-    const x0 = A[(k + 1) * n + k]!;
-    if (alpha === 0) { d[k] = A[k * n + k]!; e[k] = 0; continue; }
-    const s = x0 > 0 ? -alpha : alpha;
-    // v = x − s e1, H = I − 2 v vᵀ / (vᵀv)
-    for (let i = k + 1; i < n; i++) u[i] = A[i * n + k]!;
-    u[k + 1] = x0 - s;
-    let vv = 0;
-    for (let i = k + 1; i < n; i++) vv += u[i]! * u[i]!;
-    if (vv === 0) { d[k] = A[k * n + k]!; e[k] = x0; continue; }
-    const beta = 2 / vv;
-    // p = β A22 u from the lower triangle (rows are contiguous), then A22 −= u wᵀ + w uᵀ on the lower triangle
-    for (let i = k + 1; i < n; i++) w[i] = 0;
-    for (let i = k + 1; i < n; i++) {
-      const o = i * n, ui = u[i]!;
-      let acc = 0;
-      for (let j = k + 1; j < i; j++) { const a = A[o + j]!; acc += a * u[j]!; w[j] += a * ui; }
-      w[i] += acc + A[o + i]! * ui;
-    }
-    let pu = 0;
-    for (let i = k + 1; i < n; i++) { w[i] = beta * w[i]!; pu += w[i]! * u[i]!; }
-    const kk = (beta * pu) / 2;
-    for (let i = k + 1; i < n; i++) w[i] = w[i]! - kk * u[i]!;
-    for (let i = k + 1; i < n; i++) {
-      const ui = u[i]!, wi = w[i]!, o = i * n;
-      for (let j = k + 1; j <= i; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
-    }
-    d[k] = A[k * n + k]!;
-    e[k] = s;
-    // z ← H z on the trailing part
-    let uz = 0;
-    for (let i = k + 1; i < n; i++) uz += u[i]! * z[i]!;
-    const f = beta * uz;
-    for (let i = k + 1; i < n; i++) z[i] -= f * u[i]!;
-    void m;
-  }
+  // Householder: for k = 0..n−3 annihilate A[k+2.., k] (one small function per step, compiled once by V8)
+  for (let k = 0; k < n - 2; k++) householderStep(A, n, k, z, d, e, u, w);
   if (n >= 2) { d[n - 2] = A[(n - 2) * n + n - 2]!; e[n - 2] = A[(n - 1) * n + n - 2]!; }
   d[n - 1] = A[(n - 1) * n + n - 1]!;
   e[n - 1] = 0;
   // implicit QL with Wilkinson-type shift; rotations applied to the row vector zᵀ (Tridiagonal.eigenBatch)
   const tri = new Tridiagonal(A, n, d, e);
   const eig = tri.eigenBatch([z]);
-  if (!eig) return keep ? { ...eigenCoordinatesDense(Ain, v), tri } : eigenCoordinatesDense(Ain, v);
+  if (!eig) {
+    const orig = rebuild ? rebuild() : Ain;
+    return keep ? { ...eigenCoordinatesDense(orig, v), tri } : eigenCoordinatesDense(orig, v);
+  }
   return { values: eig.values, coords: eig.coords[0]!, tri: keep ? tri : undefined };
+}
+
+/** Step k of the Householder tridiagonalisation in `eigenCoordinates` (lower triangle of A, row-major), z ← H_k z. */
+function householderStep(A: Float64Array, n: number, k: number, z: Float64Array, d: Float64Array, e: Float64Array, u: Float64Array, w: Float64Array): void {
+  let alpha = 0;
+  for (let i = k + 1; i < n; i++) alpha += A[i * n + k]! * A[i * n + k]!;
+  alpha = Math.sqrt(alpha);
+  const x0 = A[(k + 1) * n + k]!;
+  if (alpha === 0) { d[k] = A[k * n + k]!; e[k] = 0; return; }
+  const s = x0 > 0 ? -alpha : alpha;
+  // v = x − s e1, H = I − 2 v vᵀ / (vᵀv)
+  for (let i = k + 1; i < n; i++) u[i] = A[i * n + k]!;
+  u[k + 1] = x0 - s;
+  let vv = 0;
+  for (let i = k + 1; i < n; i++) vv += u[i]! * u[i]!;
+  if (vv === 0) { d[k] = A[k * n + k]!; e[k] = x0; return; }
+  const beta = 2 / vv;
+  // p = β A22 u from the lower triangle (rows are contiguous), then A22 −= u wᵀ + w uᵀ on the lower triangle
+  for (let i = k + 1; i < n; i++) w[i] = 0;
+  for (let i = k + 1; i < n; i++) {
+    const o = i * n, ui = u[i]!;
+    let acc = 0;
+    for (let j = k + 1; j < i; j++) { const a = A[o + j]!; acc += a * u[j]!; w[j] += a * ui; }
+    w[i] += acc + A[o + i]! * ui;
+  }
+  let pu = 0;
+  for (let i = k + 1; i < n; i++) { w[i] = beta * w[i]!; pu += w[i]! * u[i]!; }
+  const kk = (beta * pu) / 2;
+  for (let i = k + 1; i < n; i++) w[i] = w[i]! - kk * u[i]!;
+  for (let i = k + 1; i < n; i++) {
+    const ui = u[i]!, wi = w[i]!, o = i * n;
+    for (let j = k + 1; j <= i; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
+  }
+  d[k] = A[k * n + k]!;
+  e[k] = s;
+  // z ← H z on the trailing part
+  let uz = 0;
+  for (let i = k + 1; i < n; i++) uz += u[i]! * z[i]!;
+  const f = beta * uz;
+  for (let i = k + 1; i < n; i++) z[i] -= f * u[i]!;
 }
 
 /**
@@ -263,13 +269,17 @@ function eigenCoordinatesDense(A: Mat, v: Float64Array): { values: Float64Array;
 
 export function ridgeSpectrum(sys: NormalSystem, P: Float64Array, keep = false): RidgeSpectrum {
   const p = sys.r.length;
-  const Mb = new Float64Array(p * p);
   const is = new Float64Array(p);
   for (let i = 0; i < p; i++) is[i] = 1 / Math.sqrt(P[i]!);
-  for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) Mb[i * p + j] = sys.M.data[i * p + j]! * is[i]! * is[j]!;
+  // P^{-1/2} M P^{-1/2}, reduced in place
+  const scaled = (): Mat => {
+    const Mb = new Float64Array(p * p);
+    for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) Mb[i * p + j] = sys.M.data[i * p + j]! * is[i]! * is[j]!;
+    return { rows: p, cols: p, data: Mb };
+  };
   const rb = new Float64Array(p);
   for (let i = 0; i < p; i++) rb[i] = sys.r[i]! * is[i]!;
-  const { values, coords, tri } = eigenCoordinates({ rows: p, cols: p, data: Mb }, rb, keep);
+  const { values, coords, tri } = eigenCoordinates(scaled(), rb, keep, scaled);
   for (let i = 0; i < p; i++) if (values[i]! < 0) values[i] = 0;
   return keep ? { mu: values, c: coords, yy: sys.yy, nObs: sys.nObs, tri, isqrtP: is } : { mu: values, c: coords, yy: sys.yy, nObs: sys.nObs };
 }
