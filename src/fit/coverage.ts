@@ -10,6 +10,7 @@
 import type { Mat } from '../linalg/dense.js';
 import { zeros, matmul, matmulNT } from '../linalg/dense.js';
 import { eigSym } from '../linalg/decomp.js';
+import { symmetricEigen } from './spectral.js';
 import type { Prepared } from './prepare.js';
 
 export interface Coverage {
@@ -42,13 +43,8 @@ export function coverage(prep: Prepared, G: Mat, sigma: number, extrapolate: boo
   let unexcited = 0;
   for (let c = 0; c < n; c++) if (vars[c]! <= 1e-8 * maxVar) unexcited++;
   // S Sᵀ = U diag(s²) Uᵀ, v_m = Sᵀ u_m / s_m
-  const SSt = zeros(N, N);
-  for (let a = 0; a < N; a++) for (let b = a; b < N; b++) {
-    let s = 0;
-    for (let c = 0; c < n; c++) s += S.data[a * n + c]! * S.data[b * n + c]!;
-    SSt.data[a * N + b] = s; SSt.data[b * N + a] = s;
-  }
-  const e = eigSym(SSt);
+  const SSt = matmulNT(S, S);
+  const e = symmetricEigen(SSt) ?? eigSym(SSt);
   const top = Math.max(e.values[0]!, 1e-300);
   const rows = G.rows;
   // GW^{1/2}

@@ -208,6 +208,32 @@ export class Tridiagonal {
 }
 
 /**
+ * Eigenvalues (descending) and eigenvectors (columns, row-major n × n) of a symmetric matrix: the Householder
+ * reduction of `eigenCoordinates`, the implicit QL sweep applied to the n unit vectors (rows of the tridiagonal
+ * form's eigenvector matrix W), then V = Q W (tred2/tql2 in the form of Wilkinson & Reinsch, Handbook for
+ * Automatic Computation II, 1971). Same contract as decomp.ts `eigSym`; null if the sweep does not converge.
+ */
+export function symmetricEigen(A: Mat): { values: Float64Array; vectors: Mat } | null {
+  const n = A.rows;
+  if (n === 0) return { values: new Float64Array(0), vectors: { rows: 0, cols: 0, data: new Float64Array(0) } };
+  const { tri } = eigenCoordinates(A, new Float64Array(n), true);
+  if (!tri) return null;
+  const units = Array.from({ length: n }, (_, j) => { const e = new Float64Array(n); e[j] = 1; return e; });
+  const eig = tri.eigenBatch(units);
+  if (!eig) return null;
+  // coords[j][m] = W[j][m]; column m of V = Q W[:, m]
+  const order = Array.from({ length: n }, (_, m) => m).sort((a, b) => eig.values[b]! - eig.values[a]!);
+  const values = new Float64Array(n), V = new Float64Array(n * n), col = new Float64Array(n);
+  order.forEach((m, c) => {
+    values[c] = eig.values[m]!;
+    for (let j = 0; j < n; j++) col[j] = eig.coords[j]![m]!;
+    const v = tri.fromTridiagonal(col);
+    for (let r = 0; r < n; r++) V[r * n + c] = v[r]!;
+  });
+  return { values, vectors: { rows: n, cols: n, data: V } };
+}
+
+/**
  * A factor of a symmetric positive semi-definite A (row-major, n × n): A ≈ (ΠL)(ΠL)ᵀ with L lower triangular
  * (n × rank, stored n × n) and Π the permutation `perm` (row i of L belongs to row perm[i] of A). Cholesky with
  * diagonal pivoting, stopped when the largest remaining pivot is below n·ε·max diag(A) (semidefinite

@@ -53,6 +53,24 @@ describe('Tridiagonal (kept Householder reduction)', () => {
   });
 });
 
+describe('symmetricEigen (coverage\'s eigen-decomposition)', () => {
+  it('hidden second-difference matrix: eigenvalues 2 − 2cos(kπ/(n+1)) descending, eigenvectors U·sin(jkπ/(n+1))·√(2/(n+1)) up to sign', async () => {
+    const { symmetricEigen } = await import('../../src/fit/spectral.js');
+    const { A, U } = hidden();
+    const e = symmetricEigen({ rows: n, cols: n, data: A })!;
+    for (let c = 0; c < n; c++) {
+      const k = n - c; // descending
+      expect(Math.abs(e.values[c]! - (2 - 2 * Math.cos((k * Math.PI) / (n + 1))))).toBeLessThan(1e-12);
+      // closed-form eigenvector of T (Strang 1986 §1.5, from memory), rotated by U
+      const w = Float64Array.from({ length: n }, (_, j) => Math.sqrt(2 / (n + 1)) * Math.sin(((j + 1) * k * Math.PI) / (n + 1)));
+      const v = Float64Array.from({ length: n }, (_, i) => { let s = 0; for (let a = 0; a < n; a++) s += U[i * n + a]! * w[a]!; return s; });
+      let dot = 0;
+      for (let i = 0; i < n; i++) dot += v[i]! * e.vectors.data[i * n + c]!;
+      expect(Math.abs(Math.abs(dot) - 1)).toBeLessThan(1e-10);
+    }
+  });
+});
+
 describe('pivoted semidefinite Cholesky and the unpenalised least-squares residual', () => {
   // reference: numpy.linalg.lstsq on a 40 × 9 design of rank 6 (test/fixtures/unpenalised_residual.py)
   const ref = JSON.parse(readFileSync(new URL('../fixtures/unpenalised_residual.json', import.meta.url), 'utf8')) as { M: number[][]; r: number[]; yy: number; nObs: number; rank: number; residual: number };
