@@ -295,14 +295,7 @@ export function solveDesigns(Ms: Float64Array[], repMs: Float64Array[][], blocks
     for (const Mr of repMs) {
       for (let b = 0; b < blocks.length; b++) {
         const m = Mr[b]!, m0 = Ms[b]!, src = blocks[b]!.sources, scale = blocks[b]!.scale ?? 1;
-        for (let k = 0; k < src.length; k++) {
-          const w = (scale * wIn[src[k]!]!) / repMs.length, mk = k * P;
-          for (let i = 0; i < P; i++) {
-            const di = w * (m[mk + i]! - m0[mk + i]!);
-            if (di === 0) continue;
-            for (let j = i; j < P; j++) S[i * P + j] += di * (m[mk + j]! - m0[mk + j]!);
-          }
-        }
+        for (let k = 0; k < src.length; k++) addRowOuter(S, m, m0, k * P, (scale * wIn[src[k]!]!) / repMs.length, P);
       }
     }
     for (let i = 0; i < P; i++) for (let j = 0; j < i; j++) S[i * P + j] = S[j * P + i]!;
@@ -325,9 +318,7 @@ export function solveDesigns(Ms: Float64Array[], repMs: Float64Array[][], blocks
   }
   const theta = sol.x.map((v, i) => v * sc[i]!);
   // residual: yy − 2θᵀy + θᵀAθ (unscaled, uncorrected A)
-  let quad = 0, lin = 0;
-  for (let i = 0; i < P; i++) { lin += theta[i]! * main.y[i]!; for (let j = 0; j < P; j++) quad += theta[i]! * main.A[i * P + j]! * theta[j]!; }
-  const rss = Math.max(0, main.yy - 2 * lin + quad);
+  const rss = Math.max(0, main.yy - 2 * dotP(theta, main.y, P) + quadForm(main.A, theta, P));
   const residual = main.yy > 0 ? Math.sqrt(rss / main.yy) : Number.POSITIVE_INFINITY;
   // residual standard errors: s² (MᵀΩM)⁻¹ with s² = rss / dof. Residuals are smooth in s, so
   // rows far from a bump are nearly dependent: count as independent only the sources inside
@@ -355,6 +346,28 @@ export function solveDesigns(Ms: Float64Array[], repMs: Float64Array[][], blocks
   // with fewer than two replicates: no spread, and the estimate stands for their mean
   const { sd, mean } = reps.length >= 2 ? replicateSpread(reps, P) : { sd: new Float64Array(P), mean: new Float64Array(theta) };
   return { theta, se, replicates: reps, aligned, sd, mean, dof, residual, corrected, unreliable, attenuation };
+}
+
+/** upper triangle of S += w (m − m0)_k (m − m0)_kᵀ for design row k (offset mk) */
+function addRowOuter(S: Float64Array, m: Float64Array, m0: Float64Array, mk: number, w: number, P: number): void {
+  for (let i = 0; i < P; i++) {
+    const di = w * (m[mk + i]! - m0[mk + i]!);
+    if (di === 0) continue;
+    for (let j = i; j < P; j++) S[i * P + j] += di * (m[mk + j]! - m0[mk + j]!);
+  }
+}
+
+function dotP(a: Float64Array, b: Float64Array, P: number): number {
+  let s = 0;
+  for (let i = 0; i < P; i++) s += a[i]! * b[i]!;
+  return s;
+}
+
+/** θᵀAθ, summed as Σ_i Σ_j θ_i A_ij θ_j */
+function quadForm(A: Float64Array, t: Float64Array, P: number): number {
+  let q = 0;
+  for (let i = 0; i < P; i++) for (let j = 0; j < P; j++) q += t[i]! * A[i * P + j]! * t[j]!;
+  return q;
 }
 
 function matProd(A: Float64Array, B: Float64Array, P: number): Float64Array {
