@@ -11,11 +11,12 @@ import { readKernel, writeKernel, isKernelDir } from './io/kernel.js';
 import { withOutput, type OutputStage } from './io/output.js';
 import { fitStudy, refit } from './fit/index.js';
 import { detectInterfaces } from './analyses/interfaces.js';
-import { comparePredictions } from './analyses/util/a_predictive.js';
+import { comparePredictions, akaikeWeights, upperNormalQuantile } from './analyses/util/a_predictive.js';
 import { diagnose } from './diagnose.js';
 import { analyses } from './analyses/registry.js';
 import { VERSION } from './version.js';
 import { InputError } from './errors.js';
+import { Rng } from './linalg/rng.js';
 import type { Audit, Findings, FitResult, Study, InputFile } from './types.js';
 
 export interface PipelineOptions {
@@ -64,12 +65,12 @@ export function writeFit(stage: OutputStage, fit: FitResult, at: string): void {
 /** Confidence of a located interface above which the fit is redone with bases broken there. */
 const INTERFACE_REFIT_CONFIDENCE = 0.9;
 /**
- * z of the paired per-experiment comparison (util/a_predictive.ts) above which a break at an interface that
- * is only probably present (existence ≥ 0.5, confidence < 0.9) is kept: one-sided level 0.001. The level is
- * small because the costs are unequal: a kept break at no real change lets the refitted kernel carry a
- * jump the interface analysis may then report, while a break wrongly refused only leaves the old fit.
+ * One-sided level of the paired per-experiment comparison (util/a_predictive.ts) at which breaks not located
+ * with confidence ≥ 0.9 are kept (shared by the trial sets, Bonferroni). The level is small because the
+ * costs are unequal: a kept break at no real change lets the refitted kernel carry a jump the interface
+ * analysis may then report, while a break wrongly refused only leaves the previous fit in use.
  */
-const PROBABLE_BREAK_Z = 3.09;
+const PROBABLE_BREAK_ALPHA = 0.001;
 
 type RefitEntry = FitResult['report']['refits'][number];
 
@@ -88,25 +89,46 @@ function annotateLast(fit: FitResult, breaks: number[], reason: string): FitResu
 
 /**
  * Refits with bases broken at interfaces of the kernel in use. Interfaces located with confidence ≥ 0.9
- * first (kept if the refit cross-validates no worse); then, one at a time in order of their probability,
- * interfaces that probably exist (existence ≥ 0.5) but are located with less confidence, each kept only if
- * the paired comparison of prediction errors over the experiments prefers the fit with the added break
- * at z ≥ PROBABLE_BREAK_Z. Every tried refit is listed in the report's refits with its breaks and reason.
+ * first (kept if the refit cross-validates no worse); then trial sets of further breaks — the interfaces
+ * that probably exist (existence ≥ 0.5) but are located with less confidence, and the change points of
+ * each profile feature whose sharp-change models are not ruled out — each kept only if the paired
+ * comparison of prediction errors over the experiments prefers it at one-sided level PROBABLE_BREAK_ALPHA
+ * (Bonferroni over the trial sets). Every tried refit is listed in the report's refits with its breaks and
+ * the reason it was used or not.
  */
-function breakRefits(study: Study, fitIn: FitResult, say: (m: string) => void, unconstrained?: FitResult): FitResult {
+function breakRefits(study: Study, fitIn: FitResult, say: (m: string) => void, seed: number, unconstrained?: FitResult): { fit: FitResult; sides: Sides | null } {
+  const located: Located[] = [];
+  const sidesOut = { value: null as Sides | null };
+  const fit = breakRefitsOn(study, fitIn, say, located, sidesOut, seed, unconstrained);
+  return { fit, sides: sidesOut.value };
+}
+
+type Located = ReturnType<typeof detectInterfaces>['interfaces'][number];
+
+function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void, det: Located[], sidesOut: { value: Sides | null }, seed: number, unconstrained?: FitResult): FitResult {
   let fit = fitIn;
   const scalar = fit.kernel.components.in === 1 && fit.kernel.components.out === 1;
   // candidates: the interfaces of the kernel in use and, when a symmetric refit replaced it, of the
   // unconstrained kernel too (a symmetric fit can smooth a weakly seen change away); of two within each
   // other's uncertainty (or 2 % of the length) the better established one is kept
-  const det = detectInterfaces(fit.kernel, fit.noise.replicates).interfaces;
-  if (unconstrained && unconstrained !== fit) {
-    const [lo, hi] = [Math.min(...fit.kernel.pointsOut.data), Math.max(...fit.kernel.pointsOut.data)];
-    for (const i of detectInterfaces(unconstrained.kernel, unconstrained.noise.replicates).interfaces) {
-      const k = det.findIndex((j) => Math.abs(j.location - i.location) <= Math.max(j.uncertainty + i.uncertainty, 0.02 * (hi - lo)));
-      if (k < 0) det.push(i);
-      else if (i.confidence > det[k]!.confidence) det[k] = i;
-    }
+  const [lo, hi] = [Math.min(...fit.kernel.pointsOut.data), Math.max(...fit.kernel.pointsOut.data)];
+  const near = (a: { location: number; uncertainty: number }, b: { location: number; uncertainty: number }) => Math.abs(a.location - b.location) <= Math.max(a.uncertainty + b.uncertainty, 0.02 * (hi - lo));
+  const results = [detectInterfaces(fit.kernel, fit.noise.replicates)];
+  if (unconstrained && unconstrained !== fit) results.push(detectInterfaces(unconstrained.kernel, unconstrained.noise.replicates));
+  for (const res of results) for (const i of res.interfaces) {
+    const k = det.findIndex((j) => near(i, j));
+    if (k < 0) det.push(i);
+    else if (i.confidence > det[k]!.confidence) det[k] = i;
+  }
+  // changes the profile comparison does not rule out (a feature's sharp-change models inside the 95 % model
+  // set): each feature's change points are one proposal, tried as a set; whether the breaks help is for the
+  // paired test below to say. Proposals of the two kernels for the same feature and places are one.
+  const proposals: { feature: string; at: Located[]; weight: number }[] = [];
+  for (const res of results) for (const q of res.proposals) {
+    const at = q.locations.map((t): Located => ({ location: t, uncertainty: q.uncertainty, confidence: 0, existence: q.weight, evidence: [q.feature] }));
+    const same = proposals.find((p) => p.at.length === at.length && p.at.every((x, k) => near(x, at[k]!)));
+    if (same) { same.weight = Math.max(same.weight, q.weight); continue; }
+    proposals.push({ feature: q.feature, at, weight: q.weight });
   }
   const symmetric = fit.report.refits.some((r) => r.used && r.constraint === 'symmetric');
   const constraint = symmetric ? 'symmetric' as const : 'none' as const;
@@ -120,24 +142,65 @@ function breakRefits(study: Study, fitIn: FitResult, say: (m: string) => void, u
     const used = r.report.refits[r.report.refits.length - 1]!.used;
     if (used) breaks = at;
     fit = annotateLast(r, at, `interface${at.length > 1 ? 's' : ''} at ${confident.map(describe).join(', ')} located with confidence ≥ ${INTERFACE_REFIT_CONFIDENCE}; ${used ? 'used: its cross-validated residual is not larger' : 'not used: its cross-validated residual is larger'}`);
+    // a break a grid cell off leaves a truncation error the data see: when the fit with the breaks moved by
+    // their location uncertainty to one side has the larger Akaike weight, the breaks are moved there
+    const sf = used ? sideFits(study, fit, det, seed, say) : null;
+    sidesOut.value = sf;
+    if (sf) {
+      const to = sf.breaks.map((t, b) => {
+        const ms = sf.moves.filter((m) => m.b === b);
+        const top = ms.reduce<(typeof ms)[number] | null>((x, m) => (m.p > (x ? x.p : sf.pStay[b]!) ? m : x), null);
+        return top ? top.to : t;
+      });
+      if (to.some((t, b) => t !== sf.breaks[b])) {
+        say(`the breaks fit better at ${to.map((t) => t.toPrecision(3)).join(', ')}: refitting there`);
+        const m = refit(study, fit, { constraint, breaks: to });
+        if (m.report.refits[m.report.refits.length - 1]!.used) {
+          const ws = sf.breaks.map((_, b) => [...sf.moves.filter((x) => x.b === b).map((x) => x.p), sf.pStay[b]!].map((w) => w.toPrecision(2)).join(' / '));
+          breaks = to;
+          fit = annotateLast(m, to, `the breaks at ${sf.breaks.map((t) => t.toPrecision(3)).join(', ')} moved where a fit predicts better: Akaike weights of each break moved down / up / not moved ${ws.join('; ')} (Burnham & Anderson 2002)`);
+        }
+      }
+    }
   }
-  // interfaces that probably exist but are located with less confidence: tried all together (one change
-  // left unresolved spoils a fit broken at the other), then backward elimination: a break is dropped when
-  // the fit without it predicts as well (the paired test does not reach PROBABLE_BREAK_Z)
-  const probable = scalar ? det.filter((i) => i.confidence < INTERFACE_REFIT_CONFIDENCE && i.existence >= 0.5) : [];
-  if (!probable.length) return fit;
-  const what = `interface${probable.length > 1 ? 's' : ''} probably at ${probable.map(describe).join(', ')}, located with confidence below ${INTERFACE_REFIT_CONFIDENCE}`;
-  const level = `one-sided level 0.001`;
+  const probable = det.filter((i) => i.confidence < INTERFACE_REFIT_CONFIDENCE && i.existence >= 0.5);
+  const sets: { at: Located[]; why: string }[] = [];
+  if (probable.length) sets.push({ at: probable, why: `interface${probable.length > 1 ? 's' : ''} probably at ${probable.map(describe).join(', ')}, located with confidence below ${INTERFACE_REFIT_CONFIDENCE}` });
+  for (const p of proposals) {
+    const at = p.at.filter((x) => !det.some((j) => near(x, j)));
+    if (!at.length || sets.some((q) => q.at.length === at.length && q.at.every((x, k) => near(x, at[k]!)))) continue;
+    sets.push({ at, why: `sharp change${at.length > 1 ? 's' : ''} of ${p.feature} not ruled out at ${at.map((x) => x.location.toPrecision(3)).join(', ')} (weight of the sharp-change models ${p.weight.toFixed(2)})` });
+  }
+  if (!sets.length) return fit;
+  const alpha = PROBABLE_BREAK_ALPHA / sets.length, zMin = upperNormalQuantile(alpha);
+  const level = `one-sided level ${alpha.toPrecision(2)}${sets.length > 1 ? ` (0.001 over ${sets.length} trial sets)` : ''}`;
   const testText = (c: ReturnType<typeof comparePredictions>) => `paired comparison of the prediction errors over ${c.experiments} experiments: z = ${c.z.toFixed(2)}, cross-validated loss ${c.relativeGain >= 0 ? 'lower' : 'higher'} by ${(100 * Math.abs(c.relativeGain)).toPrecision(2)} %`;
-  let added = probable.map((i) => i.location);
   const all = (extra: number[]) => [...breaks, ...extra].sort((p, q) => p - q);
-  say(`interface${added.length > 1 ? 's' : ''} probably at ${added.map((t) => t.toPrecision(3)).join(', ')}: trying bases broken there`);
-  let trial = refit(study, fit, { constraint, breaks: all(added) });
-  let last = trial.report.refits[trial.report.refits.length - 1]!;
-  if (!last.used) return annotateLast(trial, all(added), `${what}; not used: its cross-validated residual is larger`);
-  let cmp = comparePredictions(study, fit, trial);
-  if (!(cmp.z >= PROBABLE_BREAK_Z)) return declined(fit, { ...last, breaks: all(added).map((t) => Number(t.toPrecision(4))) }, `${what}; not used: ${testText(cmp)} (< ${PROBABLE_BREAK_Z}, ${level})`);
+  let best: { set: (typeof sets)[number]; fit: FitResult; z: number; cmp: ReturnType<typeof comparePredictions> } | null = null;
+  const refused: { entry: RefitEntry; reason: string }[] = [];
+  for (const set of sets) {
+    const extra = set.at.map((i) => i.location);
+    say(`trying bases broken at ${all(extra).map((t) => t.toPrecision(3)).join(', ')}`);
+    const trial = refit(study, fit, { constraint, breaks: all(extra) });
+    const last = trial.report.refits[trial.report.refits.length - 1]!;
+    const entry = { ...last, breaks: all(extra).map((t) => Number(t.toPrecision(4))) };
+    if (!last.used) { refused.push({ entry, reason: `${set.why}; not used: its cross-validated residual is larger` }); continue; }
+    const cmp = comparePredictions(study, fit, trial);
+    if (cmp.z >= zMin && (!best || cmp.z > best.z)) {
+      if (best) refused.push({ entry: { ...best.fit.report.refits[best.fit.report.refits.length - 1]!, breaks: all(best.set.at.map((i) => i.location)).map((t) => Number(t.toPrecision(4))) }, reason: `${best.set.why}; not used: ${testText(best.cmp)}, another set predicts better` });
+      best = { set, fit: trial, z: cmp.z, cmp };
+    } else refused.push({ entry, reason: `${set.why}; not used: ${testText(cmp)} (${cmp.z >= zMin ? 'another set predicts better' : `< ${zMin.toFixed(2)}, ${level}`})` });
+  }
+  const withRefused = (f: FitResult) => {
+    let out = f;
+    for (const r of refused) out = declined(out, r.entry, r.reason);
+    return out;
+  };
+  if (!best) return withRefused(fit);
+  for (const x of best.set.at) if (!det.includes(x)) det.push(x);
   // backward elimination over the added breaks (each removal a refit; at most as many rounds as breaks)
+  let added = best.set.at.map((i) => i.location), trial = best.fit, cmp = best.cmp;
+  const dropped: number[] = [];
   while (added.length > 1) {
     let weakest: { k: number; fit: FitResult; z: number } | null = null;
     for (let k = 0; k < added.length; k++) {
@@ -145,16 +208,104 @@ function breakRefits(study: Study, fitIn: FitResult, say: (m: string) => void, u
       const c = without.report.refits[without.report.refits.length - 1]!.used ? comparePredictions(study, without, trial).z : Infinity;
       if (!weakest || c < weakest.z) weakest = { k, fit: without, z: c };
     }
-    if (!weakest || weakest.z >= PROBABLE_BREAK_Z) break;
+    if (!weakest || weakest.z >= zMin) break;
     say(`the break at ${added[weakest.k]!.toPrecision(3)} is not needed (z = ${weakest.z.toFixed(2)})`);
+    dropped.push(added[weakest.k]!);
     added = added.filter((_, q) => q !== weakest!.k);
     trial = weakest.fit;
-    last = trial.report.refits[trial.report.refits.length - 1]!;
     cmp = comparePredictions(study, fit, trial);
   }
-  return annotateLast(trial, all(added), `${what}; used at ${added.map((t) => t.toPrecision(3)).join(', ')}: ${testText(cmp)} (≥ ${PROBABLE_BREAK_Z}, ${level})` +
-    (added.length < probable.length ? `; the other${probable.length - added.length > 1 ? 's' : ''} dropped: the fit without predicts as well` : ''));
-  return fit;
+  // the refused trials are listed before the one used
+  const used = trial.report.refits[trial.report.refits.length - 1]!;
+  const base = withRefused(fit);
+  const refits = [...base.report.refits.map((r) => ({ ...r, used: false })), { ...used, breaks: all(added).map((t) => Number(t.toPrecision(4))), reason: `${best.set.why}; used at ${added.map((t) => t.toPrecision(3)).join(', ')}: ${testText(cmp)} (≥ ${zMin.toFixed(2)}, ${level})` +
+    (dropped.length ? `; dropped ${dropped.map((t) => t.toPrecision(3)).join(', ')}: the fit without predicts as well` : '') }];
+  return { ...trial, report: { ...trial.report, refits } };
+}
+
+/**
+ * A fit with bases broken at located interfaces treats the break points as known; its bootstrap replicates
+ * then miss the error of a slightly misplaced break (a truncation error, not noise). Two more fits move
+ * every break by its location uncertainty u_b, one to each side; the three positions are weighed by their
+ * Akaike weights p (util/a_predictive.ts), and replicate r gets Σ_side √p_side ξ_r,side (G_side − G) added,
+ * ξ ~ N(0, 1): its expected squared distance from the fit is then the model-averaged one over the break
+ * positions (Burnham & Anderson 2002, §4.2, variance of a model-averaged estimate). Predicted errors are
+ * recomputed from the widened replicates.
+ */
+/** Fits with one break moved by ∓ or ± its location uncertainty (the others kept), per break; Akaike weights of each break's three positions. */
+interface Sides { ref: FitResult; breaks: number[]; u: number[]; moves: { b: number; to: number; fit: FitResult; p: number }[]; pStay: number[] }
+
+function sideFits(study: Study, fit: FitResult, located: Located[], seed: number, say: (m: string) => void): Sides | null {
+  const spec = (fit.report.hyperparameters as Record<string, unknown>).breaks;
+  if (typeof spec !== 'string' || !spec.length || !fit.noise.replicates.length) return null;
+  if (fit.kernel.components.in !== 1 || fit.kernel.components.out !== 1) return null;
+  const breaks = spec.split(',').map(Number);
+  const [lo, hi] = [Math.min(...fit.kernel.pointsOut.data), Math.max(...fit.kernel.pointsOut.data)];
+  const u = breaks.map((t) => {
+    const rec = located.reduce<Located | null>((b, i) => (!b || Math.abs(i.location - t) < Math.abs(b.location - t) ? i : b), null);
+    return rec && Number.isFinite(rec.uncertainty) ? rec.uncertainty : 0;
+  });
+  if (!u.some((d) => d > 0)) return null;
+  say(`break locations uncertain by ±${u.map((d) => d.toPrecision(2)).join(', ')}: fits with each moved either way`);
+  const symmetric = fit.report.hyperparameters.constraint === 'symmetric';
+  const moves: Sides['moves'] = [], pStay: number[] = [];
+  breaks.forEach((t, b) => {
+    if (!(u[b]! > 0)) { pStay.push(1); return; }
+    const fits = [-1, 1].map((sg) => {
+      const to = Math.min(hi, Math.max(lo, t + sg * u[b]!));
+      return { to, fit: fitStudy(study, { seed, breaks: breaks.map((x, q) => (q === b ? to : x)).sort((p, q) => p - q), replicates: 2, assume: symmetric ? 'symmetric' : 'none' }) };
+    }).filter((m) => typeof (m.fit.report.hyperparameters as Record<string, unknown>).breaks === 'string');
+    const w = akaikeWeights(study, [...fits.map((m) => m.fit), fit], fit.report.noise_estimate);
+    fits.forEach((m, q) => moves.push({ b, to: m.to, fit: m.fit, p: w[q]! }));
+    pStay.push(w[fits.length]!);
+  });
+  return { ref: fit, breaks, u, moves, pStay };
+}
+
+/**
+ * The replicates widened by the break-location uncertainty: replicate r gets Σ_moves √p ξ (G_move − G_ref),
+ * ξ ~ N(0, 1), over the moves of the breaks the fit still has where the side fits were made.
+ */
+function withBreakUncertainty(fit: FitResult, sf: Sides | null, seed: number): FitResult {
+  const spec = (fit.report.hyperparameters as Record<string, unknown>).breaks;
+  if (!sf || typeof spec !== 'string' || !fit.noise.replicates.length) return fit;
+  const now = spec.split(',').map(Number);
+  const kept = sf.moves.filter((m) => now.some((t) => Math.abs(t - sf.breaks[m.b]!) < 1e-12));
+  if (!kept.length) return fit;
+  const idx = kept.map((m) => m.b).filter((b, k, a) => a.indexOf(b) === k);
+  const breaks = idx.map((b) => sf.breaks[b]!), u = idx.map((b) => sf.u[b]!);
+  const sides = kept.map((m) => m.fit), p = kept.map((m) => m.p);
+  const rng = new Rng(seed).fork(0x6b72);
+  const G = fit.kernel.G.data, uh = fit.kernel.homogeneous, G0 = sf.ref.kernel.G.data, uh0 = sf.ref.kernel.homogeneous;
+  const coef = fit.noise.replicates.map(() => sides.map((_, q) => Math.sqrt(p[q]!) * rng.normal()));
+  const replicates = fit.noise.replicates.map((R, r) => {
+    const d = Float64Array.from(R.data);
+    sides.forEach((f, q) => { const c = coef[r]![q]!, Ga = f.kernel.G.data; for (let k = 0; k < d.length; k++) d[k] += c * (Ga[k]! - G0[k]!); });
+    return { rows: R.rows, cols: R.cols, data: d };
+  });
+  const homogeneousReplicates = uh && uh0 && sides.every((f) => f.kernel.homogeneous) && fit.noise.homogeneousReplicates.length === replicates.length
+    ? fit.noise.homogeneousReplicates.map((v, r) => {
+      const d = Float64Array.from(v);
+      sides.forEach((f, q) => { const c = coef[r]![q]!, ua = f.kernel.homogeneous!; for (let i = 0; i < d.length; i++) d[i] += c * (ua[i]! - uh0![i]!); });
+      return d;
+    })
+    : fit.noise.homogeneousReplicates;
+  // predicted errors as the fit states them: RMS over replicates of the relative distance to the fit
+  const rms = (vs: ArrayLike<number>[], ref: ArrayLike<number>) => {
+    let n2 = 0; for (let i = 0; i < ref.length; i++) n2 += ref[i]! * ref[i]!;
+    let s = 0;
+    for (const v of vs) { let d = 0; for (let i = 0; i < ref.length; i++) d += (v[i]! - ref[i]!) ** 2; s += d; }
+    return n2 > 0 && vs.length ? Math.sqrt(s / vs.length / n2) : NaN;
+  };
+  const unc = fit.report.uncertainty;
+  const kernelError = rms(replicates.map((R) => R.data), G);
+  const uhError = uh && homogeneousReplicates.length ? rms(homogeneousReplicates, uh) : unc.relative_homogeneous_error;
+  const note = `; the break points (${breaks.map((t) => t.toPrecision(3)).join(', ')}) are located, not known: refitted with each moved by ∓/± its location uncertainty (${u.map((d) => d.toPrecision(2)).join(', ')}), Akaike weights of the moves ${p.map((w) => w.toPrecision(2)).join(' / ')}; each replicate also carries N(0, weight) times each move's change of the fit`;
+  const report = {
+    ...fit.report,
+    uncertainty: { ...unc, relative_kernel_error: kernelError, relative_homogeneous_error: uhError, method: unc.method + note, relative_kernel_error_fixed_breaks: unc.relative_kernel_error } as FitResult['report']['uncertainty'],
+  };
+  return { ...fit, report, noise: { ...fit.noise, replicates, homogeneousReplicates, assumption: fit.noise.assumption + note } };
 }
 
 /** Fit a study and diagnose the kernel, refitting under symmetry when the data establish it, then with bases broken at confidently located interfaces. */
@@ -176,7 +327,10 @@ export function diagnoseStudy(study: Study, opts: PipelineOptions): { findings: 
   }
   // interfaces located with confidence, or probably present and preferred by the data: refit with the bases
   // broken there (1-D scalar studies only, a no-op otherwise)
-  if (!opts.noRefit && study.dimension === 1 && analyses.some((a) => a.key === 'interfaces')) fit = breakRefits(study, fit, say, unconstrained);
+  if (!opts.noRefit && study.dimension === 1 && analyses.some((a) => a.key === 'interfaces')) {
+    const r = breakRefits(study, fit, say, seed, unconstrained);
+    fit = withBreakUncertainty(r.fit, r.sides, seed);
+  }
   say('diagnosing the kernel');
   const { findings } = diagnose({ kernel: fit.kernel, noise: fit.noise, fit: fit.report, inputs }, { seed, progress: say, audit: auditStub });
   return { findings, fit };

@@ -603,6 +603,12 @@ export interface InterfaceResult {
   models: Record<string, { weights: Record<ModelName, number>; chosen: SegmentFit }>;
   /** the largest probability of a sharp change over the features */
   pSharp: number;
+  /**
+   * changes not ruled out: per feature whose sharp-change models (one or two steps) keep a combined weight
+   * ≥ 0.05 — inside the 95 % confidence set of models (Burnham & Anderson 2002, §4.2) — the change points
+   * of the better of them; uncertainty a quarter of the profile window. Strongest first.
+   */
+  proposals: { feature: string; locations: number[]; uncertainty: number; weight: number }[];
   power: Record<string, number>;
 }
 
@@ -614,6 +620,9 @@ export function block00(kernel: Kernel, G: Mat): Mat {
   for (let i = 0; i < nOut; i++) for (let j = 0; j < nIn; j++) d[i * nIn + j] = G.data[i * G.cols + j]!;
   return { rows: nOut, cols: nIn, data: d };
 }
+
+/** combined weight of the sharp-change models below which a change is ruled out (outside the 95 % model set) */
+const PROPOSAL_WEIGHT = 0.05;
 
 /** Profiles of the kernel and its replicates, feature selection, model comparison. */
 export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8): InterfaceResult {
@@ -664,8 +673,8 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
   };
   const cands = candidates(feats);
   const interfaces: InterfaceResult['interfaces'] = [];
-  if (cands.length) {
-    const repCands = reps.slice(0, 4).map((r) => candidates(perFeature(r)));
+  const proposals: InterfaceResult['proposals'] = [];
+  {
     const uniform = isUniform(kernel.pointsOut.data.slice(0, kernel.pointsOut.rows));
     const xo = kernel.pointsOut.data.slice(0, kernel.pointsOut.rows), si = kernel.pointsIn.data.slice(0, kernel.pointsIn.rows);
     const gapR = Math.max(3 * main.h, 0.03 * (main.hi - main.lo));
@@ -696,6 +705,7 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
       const hw = ls.map((l) => l.halfWidth).filter(Number.isFinite);
       return { tau, halfWidth: hw.length ? med(hw) : NaN, windowSpread: 1.4826 * med(ls.map((l) => Math.abs(l.tau - tau))) };
     };
+    const repCands = cands.length ? reps.slice(0, 4).map((r) => candidates(perFeature(r))) : [];
     for (const c of cands) {
       const { tau, halfWidth, windowSpread } = located(kernel.G, c);
       // replicates: is the same change found again, and where does the locator put it
@@ -714,12 +724,22 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
       const exist = c.exist * Math.min(1, 2 * recur);
       interfaces.push({ location: tau, uncertainty: unc, confidence: clamp01(exist * locConf), existence: clamp01(exist), evidence: c.feats });
     }
+    for (const { nm, cmp } of feats) {
+      const weight = cmp.weights.step + cmp.weights['two-steps'];
+      if (!(weight >= PROPOSAL_WEIGHT)) continue;
+      const best = cmp.fits.filter((f) => f.model === 'step' || f.model === 'two-steps').sort((p, q) => cmp.weights[q.model] - cmp.weights[p.model])[0];
+      // each change point placed by the same locators as the candidates (the profile model's own taus are
+      // blurred by its window)
+      const locs = (best?.taus ?? []).map((t) => located(kernel.G, { tau0: t, feats: [nm], exist: weight, steps: {} }).tau).sort((p, q) => p - q);
+      if (locs.length) proposals.push({ feature: nm, locations: locs, uncertainty: blurMax / 4, weight });
+    }
+    proposals.sort((p, q) => q.weight - p.weight);
   }
   const power: Record<string, number> = {};
   for (const { nm, dec } of feats) power[nm] = dec.power[nm] ?? 0;
   const pSharp = feats.length ? Math.max(...feats.map((f) => f.dec.pSharp)) : 0;
   const models = Object.fromEntries(feats.map((f) => [f.nm, { weights: f.cmp.weights, chosen: f.dec.chosen }]));
-  return { interfaces, profiles: main, sd, used, models, pSharp, power };
+  return { interfaces, profiles: main, sd, used, models, pSharp, power, proposals };
 }
 
 const EXPLANATION = 'Along the domain we measure local evidence of what the operator is doing: the size of the jump of the kernel\'s slope across its diagonal (the inverse of the local diffusion coefficient), and, from how the kernel\'s columns bend away from the diagonal, the local drift and the local oscillation or decay rate. We then ask which description of these profiles the data favour: no change, a smooth trend, one sharp change or two, scoring each by how well it fits against how many parameters it uses (an information criterion), with the spread over resampled kernels as the noise. An interface is reported only when a sharp change beats a smooth trend and is large enough to matter (a quarter change of conductivity, a Péclet number of one, a quarter period); when such a change could have gone unseen at this noise level, the answer is left undecided.';

@@ -108,6 +108,20 @@ describe('diffusion from the diagonal jump, extrapolated with the local homogene
     }
   });
 
+  it('a change the model comparison does not rule out is proposed at its place (entry (e), 5 % fit noise)', () => {
+    // entry (e): a = 1 | 10 at 0.4; at 5 % fit noise the conductivity profile's step models keep weight
+    // ≥ 0.05 and their change point, placed by the kink locator, lies within 0.02 of the interface
+    for (const seed of [3, 4, 5]) {
+      const m = modalKernel(piecewise(1, 10, 0.4), { rel: 0.05, reps: 8, seed });
+      const r = detectInterfaces(m.kernel, m.replicates);
+      const p = r.proposals.find((q) => q.feature === 'log_inv_diffusion');
+      expect(p).toBeDefined();
+      expect(p!.weight).toBeGreaterThanOrEqual(0.05);
+      expect(p!.locations.length).toBe(1);
+      expect(Math.abs(p!.locations[0]! - 0.4)).toBeLessThan(0.02);
+    }
+  });
+
   it('a real interface missed at high fit noise is reported as inconclusive, never as absent', () => {
     // entry (e): a = 1 | 10 at 0.4
     for (const rel of [0.3, 1]) {

@@ -7,7 +7,7 @@
  * the z statistic under equal predictive accuracy (Diebold & Mariano 1995).
  */
 import { describe, it, expect } from 'vitest';
-import { comparePredictions, experimentLosses } from '../../src/analyses/util/a_predictive.js';
+import { comparePredictions, experimentLosses, akaikeWeights, upperNormalQuantile } from '../../src/analyses/util/a_predictive.js';
 import { Rng } from '../../src/linalg/rng.js';
 import { laplace, screened, kernel1d, type G1 } from '../helpers/closedForms.js';
 import type { FitResult, Kernel, Study } from '../../src/types.js';
@@ -99,5 +99,34 @@ describe('paired comparison of two fits', () => {
     const c = comparePredictions(study, asFit(truth, p), asFit(truth, 0));
     expect(c.relativeGain).toBeCloseTo(1 - 0.81, 12);
     expect(c.z).toBeGreaterThan(3.09);
+  });
+});
+
+describe('Bonferroni levels and Akaike weights', () => {
+  it('upper normal quantiles match the tables (Abramowitz & Stegun, table 26.1)', () => {
+    expect(upperNormalQuantile(0.025)).toBeCloseTo(1.959964, 5);
+    // Φ here is A&S 7.1.26 (|error| < 1.5e-7), so in the tail the quantile is good to 1.5e-7/φ(z) ≈ 5e-5
+    expect(upperNormalQuantile(0.001)).toBeCloseTo(3.090232, 3);
+    expect(upperNormalQuantile(0.001 / 4)).toBeCloseTo(3.480756, 3);
+    expect(upperNormalQuantile(0.5)).toBeCloseTo(0, 8);
+  });
+
+  it('weigh the true kernel against a 2 % scaled one by exp(−ΔRSS/2σ²) (Burnham & Anderson 2002, §2.9)', () => {
+    // with RSS difference Δ between the fits the weight of the worse one is 1/(1 + e^{Δ/2σ²});
+    // Δ is computed here directly from the closed form (entry (a)), independently of the module
+    const truth = kernel1d(laplace(), n), off = kernel1d(scaled(laplace(), 1.002), n);
+    const sigma = 0.002;
+    const study = simulate(truth, sigma, new Rng(15));
+    let d = 0;
+    for (let j = 0; j < N; j++) for (let i = 0; i < n; i++) {
+      let gt = 0, go = 0;
+      for (let k = 0; k < n; k++) { const fw = study.inputs.values.data[j * n + k]! * truth.weightsIn[k]!; gt += truth.G.data[i * n + k]! * fw; go += off.G.data[i * n + k]! * fw; }
+      const u = study.outputs.values.data[j * n + i]!;
+      d += (u - go) ** 2 - (u - gt) ** 2;
+    }
+    const w = akaikeWeights(study, [asFit(truth), asFit(off)], sigma);
+    expect(w[0]! + w[1]!).toBeCloseTo(1, 12);
+    expect(w[1]!).toBeCloseTo(1 / (1 + Math.exp(d / (2 * sigma * sigma))), 8);
+    expect(w[1]!).toBeLessThan(0.5);
   });
 });

@@ -12,6 +12,7 @@
  */
 import type { Study, FitResult } from '../../types.js';
 import type { Mat } from '../../linalg/dense.js';
+import { normalCdf } from '../analysis.js';
 
 export interface PairedComparison {
   /** experiments compared */
@@ -23,7 +24,7 @@ export interface PairedComparison {
 }
 
 /** Degrees of freedom of a fit: the kernel's effective parameters plus one homogeneous value per sensor. */
-function fitDof(fit: FitResult, nOut: number): number {
+export function fitDof(fit: FitResult, nOut: number): number {
   const eff = Number((fit.report.hyperparameters as Record<string, unknown>).effective_parameters);
   return (Number.isFinite(eff) ? eff : 0) + (fit.kernel.homogeneous ? nOut : 0);
 }
@@ -68,4 +69,31 @@ export function comparePredictions(study: Study, a: FitResult, b: FitResult): Pa
   const se = Math.sqrt(v / Math.max(1, N - 1) / N);
   const z = se > 0 ? mD / se : mD > 0 ? Infinity : mD < 0 ? -Infinity : 0;
   return { experiments: N, relativeGain: mA > 0 ? mD / mA : 0, z };
+}
+
+/**
+ * Akaike weights of competing fits of the same data (Burnham & Anderson, Model Selection and Multimodel
+ * Inference, 2002, §2.9): w_m ∝ exp(−RSS_m/(2σ²) − dof_m), the Gaussian log-likelihood at noise σ less the
+ * number of parameters. Returned in the order given; they sum to 1.
+ */
+export function akaikeWeights(study: Study, fits: FitResult[], sigma: number): number[] {
+  const s2 = Math.max(sigma * sigma, 1e-300);
+  const score = fits.map((f) => {
+    const { loss } = experimentLosses(study, f.kernel);
+    let rss = 0;
+    for (const v of loss) rss += v;
+    return -rss / (2 * s2) - fitDof(f, f.kernel.G.rows);
+  });
+  const top = Math.max(...score);
+  const w = score.map((v) => Math.exp(v - top));
+  const tot = w.reduce((a, b) => a + b, 0);
+  return w.map((v) => v / tot);
+}
+
+/** Upper-tail standard normal quantile: z with 1 − Φ(z) = p (bisection on Φ, to 1e-10). */
+export function upperNormalQuantile(p: number): number {
+  if (!(p > 0 && p < 1)) throw new Error(`upperNormalQuantile: p = ${p} outside (0, 1)`);
+  let lo = -40, hi = 40;
+  for (let k = 0; k < 200 && hi - lo > 1e-10; k++) { const m = (lo + hi) / 2; if (1 - normalCdf(m) > p) lo = m; else hi = m; }
+  return (lo + hi) / 2;
 }
