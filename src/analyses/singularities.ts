@@ -490,18 +490,21 @@ export const singularities: Analysis<F> = {
 
 /**
  * One point, one entry: a layer at x0 shows both in u_h and as a fixed singularity of the kernel
- * (the turning point of an internal layer, for instance). Entries of different sources closer
- * than twice the larger of their widths (a pole at distance δ from the axis places its feature
- * only to within about δ; never closer than `tol`) are the same site: the more confident entry
- * is kept and the other's source is listed under `also_in`.
+ * (the turning point of an internal layer, for instance). Entries of different sources are the
+ * same site when they lie within twice the smaller of their widths (a pole at distance δ from
+ * the axis places its feature to within about δ: the sharper estimate sets the resolution, so a
+ * vague cluster does not swallow a sharp one; never closer than the grid's `tol`). The sharper
+ * entry gives place and width, the site keeps the larger confidence (either route suffices),
+ * and the other source is listed under `also_in`.
  */
 export function mergeSameSite(finding: F, tol: number): void {
   for (let a = 0; a < finding.length; a++) {
     for (let b = finding.length - 1; b > a; b--) {
       const p = finding[a]!, q = finding[b]!;
       if (p.source === q.source) continue;
-      if (Math.abs((p.location as number) - (q.location as number)) >= Math.max(tol, 2 * Math.max(p.width as number, q.width as number))) continue;
-      const [keep, drop] = (q.confidence as number) > (p.confidence as number) ? [q, p] : [p, q];
+      if (Math.abs((p.location as number) - (q.location as number)) >= Math.max(tol, 2 * Math.min(p.width as number, q.width as number))) continue;
+      const [keep, drop] = (q.width as number) < (p.width as number) ? [q, p] : [p, q];
+      keep.confidence = Math.max(keep.confidence as number, drop.confidence as number);
       keep.also_in = drop.source;
       finding[a] = keep;
       finding.splice(b, 1);
