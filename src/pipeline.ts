@@ -176,12 +176,22 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   const level = `one-sided level ${alpha.toPrecision(2)}${sets.length > 1 ? ` (0.001 over ${sets.length} trial sets)` : ''}`;
   const testText = (c: ReturnType<typeof comparePredictions>) => `paired comparison of the prediction errors over ${c.experiments} experiments: z = ${c.z.toFixed(2)}, cross-validated loss ${c.relativeGain >= 0 ? 'lower' : 'higher'} by ${(100 * Math.abs(c.relativeGain)).toPrecision(2)} %`;
   const all = (extra: number[]) => [...breaks, ...extra].sort((p, q) => p - q);
+  // trial fits: the fitted kernel does not depend on the number of bootstrap replicates, so an unconstrained
+  // trial is fitted with 2 (its replicates are not used) and only the set finally kept is refitted in full
+  const current = fit.report.refits.find((r) => r.used)?.relative_residual ?? fit.report.relative_residual;
+  const tryBreaks = (at: number[]): FitResult => {
+    if (constraint !== 'none') return refit(study, fit, { constraint, breaks: at });
+    const f = fitStudy(study, { seed, breaks: at, replicates: 2 });
+    const applied = typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string';
+    const entry = { constraint: `piecewise (breaks at ${at.map((t) => t.toPrecision(3)).join(', ')})`, relative_residual: f.report.relative_residual, used: applied && f.report.relative_residual <= current };
+    return { ...f, report: { ...f.report, refits: [...fit.report.refits, entry] } };
+  };
   let best: { set: (typeof sets)[number]; fit: FitResult; z: number; cmp: ReturnType<typeof comparePredictions> } | null = null;
   const refused: { entry: RefitEntry; reason: string }[] = [];
   for (const set of sets) {
     const extra = set.at.map((i) => i.location);
     say(`trying bases broken at ${all(extra).map((t) => t.toPrecision(3)).join(', ')}`);
-    const trial = refit(study, fit, { constraint, breaks: all(extra) });
+    const trial = tryBreaks(all(extra));
     const last = trial.report.refits[trial.report.refits.length - 1]!;
     const entry = { ...last, breaks: all(extra).map((t) => Number(t.toPrecision(4))) };
     if (!last.used) { refused.push({ entry, reason: `${set.why}; not used: its cross-validated residual is larger` }); continue; }
@@ -204,7 +214,7 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   while (added.length > 1) {
     let weakest: { k: number; fit: FitResult; z: number } | null = null;
     for (let k = 0; k < added.length; k++) {
-      const without = refit(study, fit, { constraint, breaks: all(added.filter((_, q) => q !== k)) });
+      const without = tryBreaks(all(added.filter((_, q) => q !== k)));
       const c = without.report.refits[without.report.refits.length - 1]!.used ? comparePredictions(study, without, trial).z : Infinity;
       if (!weakest || c < weakest.z) weakest = { k, fit: without, z: c };
     }
@@ -214,6 +224,11 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
     added = added.filter((_, q) => q !== weakest!.k);
     trial = weakest.fit;
     cmp = comparePredictions(study, fit, trial);
+  }
+  if (trial.noise.replicates.length < fit.noise.replicates.length) {
+    const full = refit(study, fit, { constraint, breaks: all(added) });
+    if (!full.report.refits[full.report.refits.length - 1]!.used) return withRefused(fit);
+    trial = full;
   }
   // the refused trials are listed before the one used
   const used = trial.report.refits[trial.report.refits.length - 1]!;
