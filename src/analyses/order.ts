@@ -203,7 +203,7 @@ export const order: Analysis<F> = {
     const explanation =
       'How fast the singular values of the kernel fall off tells the order of the hidden operator: for a differential operator of order 2m in d dimensions they fall like k^(−2m/d) (Weyl\'s law), while a smooth integral kernel gives an exponential fall-off. ' +
       'Only values clearly above their resampling error are used, and the count is stated. ' +
-      'In 1-D a second line of evidence is the kernel\'s shape across its diagonal: a corner (a jump in slope) means order 2, a smooth join means order 4 or higher.';
+      'In 1-D a second line of evidence is the kernel\'s shape across its diagonal: a corner (a jump in slope) means order 2; a join that is smooth in slope but jumps in its third derivative, by the same amount at two window sizes, means order 4; a join smooth in every derivative fits a non-local kernel as well, so it decides nothing on its own.';
     const reps = replicates(ctx);
     const idRank = ctx.fit?.coverage?.identified_rank;
     const sp = kernelSpectrum(kernel, reps, typeof idRank === 'number' ? idRank : undefined);
