@@ -167,7 +167,8 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   const sets: { at: Located[]; why: string }[] = [];
   if (probable.length) sets.push({ at: probable, why: `interface${probable.length > 1 ? 's' : ''} probably at ${probable.map(describe).join(', ')}, located with confidence below ${INTERFACE_REFIT_CONFIDENCE}` });
   for (const p of proposals) {
-    const at = p.at.filter((x) => !det.some((j) => near(x, j)));
+    // a proposal near a break in use or a probable interface adds nothing; near a weaker record it is tried
+    const at = p.at.filter((x) => !breaks.some((t) => near(x, { location: t, uncertainty: 0 })) && !probable.some((j) => near(x, j)));
     if (!at.length || sets.some((q) => q.at.length === at.length && q.at.every((x, k) => near(x, at[k]!)))) continue;
     sets.push({ at, why: `sharp change${at.length > 1 ? 's' : ''} of ${p.feature} not ruled out at ${at.map((x) => x.location.toPrecision(3)).join(', ')} (weight of the sharp-change models ${p.weight.toFixed(2)})` });
   }
