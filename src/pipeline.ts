@@ -177,14 +177,13 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   const level = `one-sided level ${alpha.toPrecision(2)}${sets.length > 1 ? ` (0.001 over ${sets.length} trial sets)` : ''}`;
   const testText = (c: ReturnType<typeof comparePredictions>) => `paired comparison of the prediction errors over ${c.experiments} experiments: z = ${c.z.toFixed(2)}, cross-validated loss ${c.relativeGain >= 0 ? 'lower' : 'higher'} by ${(100 * Math.abs(c.relativeGain)).toPrecision(2)} %`;
   const all = (extra: number[]) => [...breaks, ...extra].sort((p, q) => p - q);
-  // trial fits: the fitted kernel does not depend on the number of bootstrap replicates, so an unconstrained
-  // trial is fitted with 2 (its replicates are not used) and only the set finally kept is refitted in full
+  // trial fits: the fitted kernel does not depend on the bootstrap replicates, so a trial is fitted without them
+  // (fitStudy `trial`: no replicates, no scaling test) and only the set finally kept is refitted in full
   const current = fit.report.refits.find((r) => r.used)?.relative_residual ?? fit.report.relative_residual;
   const tryBreaks = (at: number[]): FitResult => {
-    if (constraint !== 'none') return refit(study, fit, { constraint, breaks: at });
-    const f = fitStudy(study, { seed, breaks: at, replicates: 2 });
+    const f = fitStudy(study, { seed, breaks: at, trial: true, assume: constraint });
     const applied = typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string';
-    const entry = { constraint: `piecewise (breaks at ${at.map((t) => t.toPrecision(3)).join(', ')})`, relative_residual: f.report.relative_residual, used: applied && f.report.relative_residual <= current };
+    const entry = { constraint: `${constraint === 'none' ? '' : `${constraint}, `}piecewise (breaks at ${at.map((t) => t.toPrecision(3)).join(', ')})`, relative_residual: f.report.relative_residual, used: applied && f.report.relative_residual <= current };
     return { ...f, report: { ...f.report, refits: [...fit.report.refits, entry] } };
   };
   let best: { set: (typeof sets)[number]; fit: FitResult; z: number; cmp: ReturnType<typeof comparePredictions> } | null = null;
@@ -269,7 +268,7 @@ function sideFits(study: Study, fit: FitResult, located: Located[], seed: number
     if (!(u[b]! > 0)) { pStay.push(1); return; }
     const fits = [-1, 1].map((sg) => {
       const to = Math.min(hi, Math.max(lo, t + sg * u[b]!));
-      return { to, fit: fitStudy(study, { seed, breaks: breaks.map((x, q) => (q === b ? to : x)).sort((p, q) => p - q), replicates: 2, assume: symmetric ? 'symmetric' : 'none' }) };
+      return { to, fit: fitStudy(study, { seed, breaks: breaks.map((x, q) => (q === b ? to : x)).sort((p, q) => p - q), trial: true, assume: symmetric ? 'symmetric' : 'none' }) };
     }).filter((m) => typeof (m.fit.report.hyperparameters as Record<string, unknown>).breaks === 'string');
     const w = akaikeWeights(study, [...fits.map((m) => m.fit), fit], fit.report.noise_estimate);
     fits.forEach((m, q) => moves.push({ b, to: m.to, fit: m.fit, p: w[q]! }));

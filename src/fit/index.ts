@@ -28,6 +28,12 @@ export interface FitOptions {
   progress?: (msg: string) => void;
   /** interior break points (interfaces) for the 1-D bases: piecewise Legendre on the pieces between them */
   breaks?: number[];
+  /**
+   * A fit for comparing models only (1-D; ignored in 2-D): the kernel and u_h as in a full fit, but no bootstrap
+   * replicates (empty noise floor, predicted errors not available), no scaling test, and with `assume` the
+   * constrained fit directly. Never a fit to report.
+   */
+  trial?: boolean;
 }
 
 /** z above which the scaling test calls a study nonlinear (one-sided, p ≈ 0.001 under a Gaussian null) */
@@ -40,11 +46,11 @@ function defaultReplicates(_prep: Prepared): number {
   return 20;
 }
 
-function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[]): CoreFit {
+function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[], scaling = true): CoreFit {
   const sets = Array.from({ length: prep.nOut * prep.cOut }, (_, c) => measured(prep, c));
   const rng = new Rng(seed);
   const sigmaKnown = study.noise?.sigma !== undefined && study.noise.sigma > 0 ? study.noise.sigma : undefined;
-  const common = { rng, replicates, sigmaKnown, progress, scaling: true };
+  const common = { rng, replicates, sigmaKnown, progress, scaling };
   if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint, breaks });
   return fitPathSpan(prep, sets, { ...common, constraint });
 }
@@ -165,9 +171,16 @@ export function fitStudy(study: Study, opts: FitOptions = {}): FitResult {
   const seed = opts.seed ?? 0;
   const progress = opts.progress ?? (() => {});
   const prep = prepare(study);
+  const assume = opts.assume ?? 'none';
+  if (opts.trial && prep.dimension === 1) {
+    const core = runCore(study, prep, assume, seed, 0, progress, opts.breaks, false);
+    const res = assemble(study, prep, core, seed, t0);
+    res.report.uncertainty.method = 'none (a trial fit for model comparison: no bootstrap replicates)';
+    res.report.linearity = { verdict: 'not-tested', statistic: null, threshold: null, note: 'not tested in a trial fit' };
+    return res;
+  }
   const R = opts.replicates ?? defaultReplicates(prep);
   if (!Number.isInteger(R) || R < 2) throw new DataError('replicates must be an integer ≥ 2');
-  const assume = opts.assume ?? 'none';
   const base = assemble(study, prep, runCore(study, prep, 'none', seed, R, progress, opts.breaks), seed, t0);
   if (assume === 'none') return base;
   const other = refitFrom(study, prep, base, assume, seed, R, progress, true, opts.breaks);

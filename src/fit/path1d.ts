@@ -413,7 +413,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const colsOut = prep.nOut * prep.cOut;
   const P0 = Kf * setup.F;
   // each replicate re-chooses the basis size among the neighbours of the chosen one and λ by GCV (selectionReplicates)
-  const repTheta = fits.map((f, p) => selectionReplicates(chosen.searches[p]!, systems[p]!, f, choices[p]!, constraint, Kf, prep.cIn, basis.degree, sigmaRep[p]!, R, o.rng));
+  const repTheta = fits.map((f, p) => (R > 0 ? selectionReplicates(chosen.searches[p]!, systems[p]!, f, choices[p]!, constraint, Kf, prep.cIn, basis.degree, sigmaRep[p]!, R, o.rng) : []));
   const meanEps = Array.from({ length: R }, () => {
     const m = new Float64Array(colsOut);
     for (let c = 0; c < colsOut; c++) { const nJ = sets[c]!.length; m[c] = nJ > 0 ? (sigmaRep[Math.floor(c / prep.nOut)]! / Math.sqrt(nJ)) * o.rng.normal() : 0; }
@@ -423,7 +423,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const resE = new Float64Array(prep.N), resN = new Float64Array(prep.N), predE = new Float64Array(prep.N);
   const thRow = new Float64Array(setup.F);
   const F = setup.F;
-  sweepFeatures(prep, setup.Psi, Kf, (i, X) => {
+  if (o.scaling) sweepFeatures(prep, setup.Psi, Kf, (i, X) => {
     for (let p = 0; p < prep.cOut; p++) {
       const c = p * prep.nOut + i;
       const xb = setup.xbar.subarray(c * F, (c + 1) * F);
@@ -443,7 +443,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   // if they do not, d1/√2 (the two fits' errors taken as uncorrelated and of equal size).
   let trunc2 = 0;
   const truncDirs: { p: number; D: Mat; scale: number }[] = [];
-  fits.forEach((f, p) => {
+  // (a fit without replicates — a trial fit — has nowhere to carry it)
+  if (R > 0) fits.forEach((f, p) => {
     const smaller = choices[p]!.tried.filter((t) => t.K < f.K && t.order === f.order && t.jump === undefined).sort((a, b) => b.K - a.K);
     if (smaller.length < 2) return;
     const [t1, t2] = smaller as [typeof smaller[0], typeof smaller[0]];

@@ -39,4 +39,18 @@ describe('fit with bases broken at interfaces', () => {
     expect(out.report.hyperparameters.basis).toBe('legendre');
     expect(relativeError(out.kernel.G, plain.kernel.G)).toBe(0);
   });
+
+  it('a trial fit (no replicates, no scaling test) has the full fit\u2019s kernel, broken and under symmetry, and the closed-form accuracy', () => {
+    const { study, G } = synth1d(g, { seed: 5, noise: 0.01 });
+    for (const assume of ['none', 'symmetric'] as const) {
+      const full = fitStudy(study, { seed: 5, replicates: 4, breaks: [c], assume });
+      const trial = fitStudy(study, { seed: 5, breaks: [c], assume, trial: true });
+      expect(relativeError(trial.kernel.G, full.kernel.G)).toBe(0);
+      expect(trial.noise.replicates.length).toBe(0);
+      expect(trial.report.linearity.verdict).toBe('not-tested');
+      expect(trial.report.hyperparameters.constraint).toBe(assume);
+      // closed form (e): the noise-0.01 broken fit is within a percent
+      expect(relativeError(trial.kernel.G, G)).toBeLessThan(0.01);
+    }
+  });
 });
