@@ -113,8 +113,8 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   // other's uncertainty (or 2 % of the length) the better established one is kept
   const [lo, hi] = [Math.min(...fit.kernel.pointsOut.data), Math.max(...fit.kernel.pointsOut.data)];
   const near = (a: { location: number; uncertainty: number }, b: { location: number; uncertainty: number }) => Math.abs(a.location - b.location) <= Math.max(a.uncertainty + b.uncertainty, 0.02 * (hi - lo));
-  const results = [detectInterfaces(fit.kernel, fit.noise.replicates)];
-  if (unconstrained && unconstrained !== fit) results.push(detectInterfaces(unconstrained.kernel, unconstrained.noise.replicates));
+  const results = [detectInterfaces(fit.kernel, fit.noise.replicates, 8, true)];
+  if (unconstrained && unconstrained !== fit) results.push(detectInterfaces(unconstrained.kernel, unconstrained.noise.replicates, 8, true));
   for (const res of results) for (const i of res.interfaces) {
     const k = det.findIndex((j) => near(i, j));
     if (k < 0) det.push(i);

@@ -608,7 +608,7 @@ export interface InterfaceResult {
    * ≥ 0.05 — inside the 95 % confidence set of models (Burnham & Anderson 2002, §4.2) — the change points
    * of the better of them; uncertainty a quarter of the profile window. Strongest first.
    */
-  proposals: { feature: string; locations: number[]; uncertainty: number; weight: number }[];
+  proposals: { feature: string; locations: number[]; uncertainty: number; weight: number }[]; // empty unless asked for (withProposals)
   power: Record<string, number>;
 }
 
@@ -625,7 +625,8 @@ export function block00(kernel: Kernel, G: Mat): Mat {
 const PROPOSAL_WEIGHT = 0.05;
 
 /** Profiles of the kernel and its replicates, feature selection, model comparison. */
-export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8): InterfaceResult {
+/** `withProposals`: also place each feature's change points not ruled out (the pipeline's break trials; costs the locators per feature) */
+export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8, withProposals = false): InterfaceResult {
   const main = localProfiles(kernel, block00(kernel, kernel.G));
   const reps = replicates.slice(0, maxReps).map((R) => localProfiles(kernel, block00(kernel, R)));
   const names = Object.keys(main.features);
@@ -724,7 +725,7 @@ export function detectInterfaces(kernel: Kernel, replicates: Mat[], maxReps = 8)
       const exist = c.exist * Math.min(1, 2 * recur);
       interfaces.push({ location: tau, uncertainty: unc, confidence: clamp01(exist * locConf), existence: clamp01(exist), evidence: c.feats });
     }
-    for (const { nm, cmp } of feats) {
+    if (withProposals) for (const { nm, cmp } of feats) {
       const weight = cmp.weights.step + cmp.weights['two-steps'];
       if (!(weight >= PROPOSAL_WEIGHT)) continue;
       const best = cmp.fits.filter((f) => f.model === 'step' || f.model === 'two-steps').sort((p, q) => cmp.weights[q.model] - cmp.weights[p.model])[0];

@@ -113,7 +113,7 @@ describe('diffusion from the diagonal jump, extrapolated with the local homogene
     // ≥ 0.05 and their change point, placed by the kink locator, lies within 0.02 of the interface
     for (const seed of [3, 4, 5]) {
       const m = modalKernel(piecewise(1, 10, 0.4), { rel: 0.05, reps: 8, seed });
-      const r = detectInterfaces(m.kernel, m.replicates);
+      const r = detectInterfaces(m.kernel, m.replicates, 8, true);
       const p = r.proposals.find((q) => q.feature === 'log_inv_diffusion');
       expect(p).toBeDefined();
       expect(p!.weight).toBeGreaterThanOrEqual(0.05);
