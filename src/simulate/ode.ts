@@ -78,7 +78,7 @@ export function compileOde(op: OdeSpec, extraC?: (x: number) => number, extraBre
   };
 }
 
-interface PieceData {
+export interface PieceData {
   l: number; r: number; mid: number;
   x: Float64Array; w: Float64Array;
   /** D[k] = k-th derivative matrix, k = 0..4 (D[0] unused) */
@@ -98,7 +98,7 @@ export interface OdeSolution {
   newtonIterations: number;
 }
 
-function makePiece(op: CompiledOde, l: number, r: number, n: number): PieceData {
+export function makePiece(op: CompiledOde, l: number, r: number, n: number): PieceData {
   const x = chebPoints(n, l, r);
   const w = baryWeights(n);
   const D1 = diffMatrix(x, w);
@@ -115,7 +115,7 @@ function makePiece(op: CompiledOde, l: number, r: number, n: number): PieceData 
   return { l, r, mid, x, w, D, av, ev, dev };
 }
 
-function matvecSq(A: Float64Array, v: Float64Array, n: number): Float64Array {
+export function matvecSq(A: Float64Array, v: Float64Array, n: number): Float64Array {
   const out = new Float64Array(n);
   for (let i = 0; i < n; i++) { let s = 0; for (let j = 0; j < n; j++) s += A[i * n + j]! * v[j]!; out[i] = s; }
   return out;
@@ -148,24 +148,7 @@ function assemble(op: CompiledOde, pieces: PieceData[], n: number): System {
       const key = `${p}:${K}`;
       let P = projCache.get(key);
       if (!P) { P = interpMatrix(pc.x, pc.w, chebPoints1(m, pc.l, pc.r)); projCache.set(key, P); }
-      // square operator on the nodes: Σ_k coef_k(x_i) D^k[i, j]
-      const a = pc.av[c]!, e = pc.ev[c]!;
-      const da = matvecSq(pc.D[1]!, a, n);
-      const de = pc.dev[c]!;
-      const dde = matvecSq(pc.D[2]!, e, n);
-      const Lsq = new Float64Array(n * n);
-      for (let i = 0; i < n; i++) {
-        const xi = pc.x[i]!;
-        const bi = op.b[c]!(xi, pc.mid), ci = op.c[c]!(xi, pc.mid);
-        const k4 = K === 4 ? e[i]! : 0, k3 = K === 4 ? 2 * de[i]! : 0, k2 = (K === 4 ? dde[i]! : 0) - a[i]!, k1 = bi - da[i]!;
-        for (let j = 0; j < n; j++) {
-          let v = k2 * pc.D[2]![i * n + j]! + k1 * pc.D[1]![i * n + j]!;
-          if (K === 4) v += k4 * pc.D[4]![i * n + j]! + k3 * pc.D[3]![i * n + j]!;
-          Lsq[i * n + j] = v;
-        }
-        Lsq[i * n + i] += ci;
-      }
-      const PL = sqRectMul(P, Lsq, m, n);
+      const PL = operatorRows(op, pc, n, c, P, m);
       for (let i = 0; i < m; i++) {
         const ro = (row + i) * N;
         for (let j = 0; j < n; j++) A[ro + col(p, c) + j] = PL[i * n + j]!;
@@ -182,12 +165,7 @@ function assemble(op: CompiledOde, pieces: PieceData[], n: number): System {
   // boundary conditions
   const bcRow = (pc: PieceData, node: number, c: number, coefs: number[], target: number, colBase: number) => {
     const ro = target * N;
-    for (let k = 0; k < coefs.length; k++) {
-      const ak = coefs[k]!;
-      if (ak === 0) continue;
-      if (k === 0) { A[ro + colBase + node] += ak; continue; }
-      for (let j = 0; j < n; j++) A[ro + colBase + j] += ak * pc.D[k]![node * n + j]!;
-    }
+    conditionRow(pc, n, node, coefs, (j, v) => { A[ro + colBase + j] += v; });
   };
   const leftRows: number[][] = [], rightRows: number[][] = [];
   for (let c = 0; c < C; c++) {
@@ -219,6 +197,39 @@ function assemble(op: CompiledOde, pieces: PieceData[], n: number): System {
   return { N, A, scale, eqRows, leftRows, rightRows };
 }
 
+/** Rows (m × n) of the differential operator of component c on piece pc, projected by P (m × n). */
+export function operatorRows(op: CompiledOde, pc: PieceData, n: number, c: number, P: Float64Array, m: number): Float64Array {
+  const K = op.orders[c]!;
+  // square operator on the nodes: Σ_k coef_k(x_i) D^k[i, j]
+  const a = pc.av[c]!, e = pc.ev[c]!;
+  const da = matvecSq(pc.D[1]!, a, n);
+  const de = pc.dev[c]!;
+  const dde = matvecSq(pc.D[2]!, e, n);
+  const Lsq = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) {
+    const xi = pc.x[i]!;
+    const bi = op.b[c]!(xi, pc.mid), ci = op.c[c]!(xi, pc.mid);
+    const k4 = K === 4 ? e[i]! : 0, k3 = K === 4 ? 2 * de[i]! : 0, k2 = (K === 4 ? dde[i]! : 0) - a[i]!, k1 = bi - da[i]!;
+    for (let j = 0; j < n; j++) {
+      let v = k2 * pc.D[2]![i * n + j]! + k1 * pc.D[1]![i * n + j]!;
+      if (K === 4) v += k4 * pc.D[4]![i * n + j]! + k3 * pc.D[3]![i * n + j]!;
+      Lsq[i * n + j] = v;
+    }
+    Lsq[i * n + i] += ci;
+  }
+  return sqRectMul(P, Lsq, m, n);
+}
+
+/** A boundary-condition row Σ_k coefs_k u^(k)(x_node): calls add(j, value) for the piece's columns j. */
+export function conditionRow(pc: PieceData, n: number, node: number, coefs: number[], add: (j: number, v: number) => void): void {
+  for (let k = 0; k < coefs.length; k++) {
+    const ak = coefs[k]!;
+    if (ak === 0) continue;
+    if (k === 0) { add(node, ak); continue; }
+    for (let j = 0; j < n; j++) add(j, ak * pc.D[k]![node * n + j]!);
+  }
+}
+
 function sqRectMul(P: Float64Array, L: Float64Array, m: number, n: number): Float64Array {
   const out = new Float64Array(m * n);
   for (let i = 0; i < m; i++) {
@@ -236,7 +247,7 @@ function sqRectMul(P: Float64Array, L: Float64Array, m: number, n: number): Floa
  * order 2: u, −a u'; order 4: u, u', e u'', (e u'')' − a u'. The last one is the flux whose
  * jump a point source sets.
  */
-function functionalRow(op: CompiledOde, pc: PieceData, n: number, c: number, q: number, node: number): Float64Array {
+export function functionalRow(op: CompiledOde, pc: PieceData, n: number, c: number, q: number, node: number): Float64Array {
   const K = op.orders[c]!;
   const r = new Float64Array(n);
   const a = pc.av[c]![node]!, e = pc.ev[c]![node]!, de = pc.dev[c]![node]!;
@@ -315,7 +326,7 @@ export function solveOde(op: CompiledOde, data: BoundaryData[], opts: SolveOptio
   }
 }
 
-function pieceTails(op: CompiledOde, pieces: PieceData[], n: number, columns: Float64Array[]): number[] {
+export function pieceTails(op: CompiledOde, pieces: PieceData[], n: number, columns: Float64Array[]): number[] {
   const C = op.C;
   const tails = new Array<number>(pieces.length).fill(0);
   for (const v of columns) {
