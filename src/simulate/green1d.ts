@@ -222,7 +222,7 @@ function directKernel(model: Ode1dModel, xs: Float64Array, ss: Float64Array, cac
     if (d > err) { err = d; worst = i % ss.length; }
   }
   if (!(err <= ACCURACY * scale)) {
-    throw new DataError(`simulate: the Green's function of this operator cannot be computed accurately: two direct solves differ by ${(err / scale).toExponential(1)} of its scale (column of the source at ${ss[worst]}), and the basis construction is inaccurate for it`);
+    throw new DataError(`simulate: the Green's function of this operator cannot be computed accurately: two direct solves differ by ${(err / scale).toExponential(1)} of its scale (column of the source at ${ss[worst]}): the boundary-value problem is too ill-conditioned for double precision (e.g. an exponentially small eigenvalue), and the basis construction is inaccurate for it`);
   }
   return G;
 }
