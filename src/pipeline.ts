@@ -263,12 +263,16 @@ function sideFits(study: Study, fit: FitResult, located: Located[], seed: number
   if (!u.some((d) => d > 0)) return null;
   say(`break locations uncertain by ±${u.map((d) => d.toPrecision(2)).join(', ')}: fits with each moved either way`);
   const symmetric = fit.report.hyperparameters.constraint === 'symmetric';
+  // the moved fits keep the reference fit's hyper-parameters, so that the three positions differ only in the break
+  const h = fit.report.hyperparameters as Record<string, unknown>;
+  const fx = { K: Number(h.basis_size), order: Number(h.penalty_order), jump: Number(h.jump_penalty_factor), lambda: Number(h.lambda) };
+  const fixed = Object.values(fx).every(Number.isFinite) ? fx : undefined;
   const moves: Sides['moves'] = [], pStay: number[] = [];
   breaks.forEach((t, b) => {
     if (!(u[b]! > 0)) { pStay.push(1); return; }
     const fits = [-1, 1].map((sg) => {
       const to = Math.min(hi, Math.max(lo, t + sg * u[b]!));
-      return { to, fit: fitStudy(study, { seed, breaks: breaks.map((x, q) => (q === b ? to : x)).sort((p, q) => p - q), trial: true, assume: symmetric ? 'symmetric' : 'none' }) };
+      return { to, fit: fitStudy(study, { seed, breaks: breaks.map((x, q) => (q === b ? to : x)).sort((p, q) => p - q), trial: true, fixed, assume: symmetric ? 'symmetric' : 'none' }) };
     }).filter((m) => typeof (m.fit.report.hyperparameters as Record<string, unknown>).breaks === 'string');
     const w = akaikeWeights(study, [...fits.map((m) => m.fit), fit], fit.report.noise_estimate);
     fits.forEach((m, q) => moves.push({ b, to: m.to, fit: m.fit, p: w[q]! }));

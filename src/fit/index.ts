@@ -34,6 +34,8 @@ export interface FitOptions {
    * constrained fit directly. Never a fit to report.
    */
   trial?: boolean;
+  /** with `trial` and `breaks` (1-D scalar): fit at these hyper-parameters instead of choosing them */
+  fixed?: { K: number; order: number; jump: number; lambda: number };
 }
 
 /** z above which the scaling test calls a study nonlinear (one-sided, p ≈ 0.001 under a Gaussian null) */
@@ -46,12 +48,12 @@ function defaultReplicates(_prep: Prepared): number {
   return 20;
 }
 
-function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[], scaling = true): CoreFit {
+function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[], scaling = true, fixed?: FitOptions['fixed']): CoreFit {
   const sets = Array.from({ length: prep.nOut * prep.cOut }, (_, c) => measured(prep, c));
   const rng = new Rng(seed);
   const sigmaKnown = study.noise?.sigma !== undefined && study.noise.sigma > 0 ? study.noise.sigma : undefined;
   const common = { rng, replicates, sigmaKnown, progress, scaling };
-  if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint, breaks });
+  if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint, breaks, fixed });
   return fitPathSpan(prep, sets, { ...common, constraint });
 }
 
@@ -173,7 +175,7 @@ export function fitStudy(study: Study, opts: FitOptions = {}): FitResult {
   const prep = prepare(study);
   const assume = opts.assume ?? 'none';
   if (opts.trial && prep.dimension === 1) {
-    const core = runCore(study, prep, assume, seed, 0, progress, opts.breaks, false);
+    const core = runCore(study, prep, assume, seed, 0, progress, opts.breaks, false, opts.fixed);
     const res = assemble(study, prep, core, seed, t0);
     res.report.uncertainty.method = 'none (a trial fit for model comparison: no bootstrap replicates)';
     res.report.linearity = { verdict: 'not-tested', statistic: null, threshold: null, note: 'not tested in a trial fit' };

@@ -291,6 +291,8 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   constraint: Constraint; rng: Rng; replicates: number; sigmaKnown?: number; progress: (m: string) => void; scaling: boolean;
   /** interior break points: the basis is piecewise Legendre on the pieces between them (piecewiseKinkBasis) */
   breaks?: readonly number[];
+  /** with breaks: fit at these hyper-parameters instead of choosing them (a trial fit comparing break positions) */
+  fixed?: { K: number; order: number; jump: number; lambda: number };
 }): CoreFit {
   const [blo, bhi] = prep.box[0]!;
   const breaks = (o.breaks ?? []).filter((t) => t > blo && t < bhi);
@@ -340,8 +342,26 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const canEnrich = pieces === 1 && Kf >= 8 && prep.box[0]![1] > prep.box[0]![0];
   // with the oscillatory family in play, the plain sizes above EAGER_PLAIN_SIZE are searched only if the plain
   // family can still win: first the enriched family's score, then a lower bound on the deferred sizes' GCV
+  // fixed hyper-parameters (a trial comparing break positions): the reference fit's size, penalty and λ, no search
+  const fixedFamily = (b: KinkBasis, fx: NonNullable<typeof o.fixed>): Family => {
+    const st = setupKink(prep, b, sets);
+    const systems: NormalSystem[] = [], fits: KinkFit[] = [], choices: KinkChoice[] = [], searches: KinkSearch[] = [];
+    for (let p = 0; p < prep.cOut; p++) {
+      const sys = assembleFull(st, prep, p, Kf);
+      const map = constraint === 'symmetric' ? symmetricMap(Kf, fx.K) : unconstrainedMap(Kf, prep.cIn, fx.K);
+      const red = reduceSystem(sys, penaltyWeights(Kf, prep.cIn, fx.order, fx.jump, b.degree), map);
+      const sp = ridgeSpectrum(red.sys, red.P, true);
+      const g = gcvAt(sp, fx.lambda);
+      const choice: KinkChoice = { K: fx.K, order: fx.order, jump: fx.jump, gcv: g, tried: [{ K: fx.K, order: fx.order, gcv: g.gcv, lambda: fx.lambda, dof: g.dof }] };
+      systems.push(sys); choices.push(choice);
+      fits.push(solveKink(sys, Kf, prep.cIn, choice, constraint, b.degree, sp));
+      searches.push(startKinkSearch(sys, Kf, prep.cIn, constraint, fx.order, b.degree, []));
+    }
+    return { basis: b, setup: st, searches, systems, fits, choices, score: choices.reduce((acc, c, p) => acc + c.gcv.gcv * systems[p]!.nObs, 0) };
+  };
+  const fixed = pieces > 1 && o.replicates === 0 ? o.fixed : undefined;
   let plain = pieces > 1
-    ? fitBasis(piecewiseKinkBasis(prep, Kf, breaks), piecewiseCandidates(Kf, pieces))
+    ? (fixed ? fixedFamily(piecewiseKinkBasis(prep, Kf, breaks), fixed) : fitBasis(piecewiseKinkBasis(prep, Kf, breaks), piecewiseCandidates(Kf, pieces)))
     : fitBasis(legendreKinkBasis(prep, Kf), kinkCandidates(Kf), undefined, canEnrich ? EAGER_PLAIN_SIZE : Infinity);
   let chosen = plain;
   // oscillatory enrichment: frequency by a GCV scan at a small size; the enriched basis replaces the plain
@@ -392,7 +412,7 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   }
   const plainScore = plain.score;
   const { basis, setup, systems } = chosen;
-  const choices = chosen.choices.map((c, p) => chooseJump(systems[p]!, Kf, prep.cIn, constraint, c, basis.degree));
+  const choices = fixed ? chosen.choices : chosen.choices.map((c, p) => chooseJump(systems[p]!, Kf, prep.cIn, constraint, c, basis.degree));
   const fits = choices.map((c, p) => (c === chosen.choices[p] ? chosen.fits[p]! : solveKink(systems[p]!, Kf, prep.cIn, c, constraint, basis.degree)));
   const thetas = fits.map((f) => f.theta);
   const G = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn);

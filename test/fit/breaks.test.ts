@@ -53,4 +53,19 @@ describe('fit with bases broken at interfaces', () => {
       expect(relativeError(trial.kernel.G, G)).toBeLessThan(0.01);
     }
   });
+
+  it('a trial fit at fixed hyper-parameters (the moved-break fits) reproduces the fit whose size, penalty and λ it is given', () => {
+    const { study } = synth1d(g, { seed: 6, noise: 0.01 });
+    const full = fitStudy(study, { seed: 6, replicates: 4, breaks: [c] });
+    const h = full.report.hyperparameters as Record<string, number>;
+    const fixed = { K: h.basis_size!, order: h.penalty_order!, jump: h.jump_penalty_factor!, lambda: h.lambda! };
+    const same = fitStudy(study, { seed: 6, breaks: [c], trial: true, fixed });
+    expect(relativeError(same.kernel.G, full.kernel.G)).toBeLessThan(1e-8);
+    expect(same.report.hyperparameters.effective_parameters).toBeCloseTo(h.effective_parameters!, 6);
+    // moved by two grid cells at the same hyper-parameters: a different, nearby kernel
+    const moved = fitStudy(study, { seed: 6, breaks: [c + 0.01], trial: true, fixed });
+    const d = relativeError(moved.kernel.G, full.kernel.G);
+    expect(d).toBeGreaterThan(1e-6);
+    expect(d).toBeLessThan(0.2);
+  });
 });
