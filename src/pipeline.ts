@@ -9,7 +9,7 @@ import { existsSync, statSync } from 'node:fs';
 import { readStudy } from './io/study.js';
 import { readKernel, writeKernel, isKernelDir } from './io/kernel.js';
 import { withOutput, type OutputStage } from './io/output.js';
-import { fitStudy, refit } from './fit/index.js';
+import { fitStudy, refit, refitLabel } from './fit/index.js';
 import { detectInterfaces } from './analyses/interfaces.js';
 import { comparePredictions, akaikeWeights, upperNormalQuantile } from './analyses/util/a_predictive.js';
 import { diagnose } from './diagnose.js';
@@ -183,7 +183,7 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   const tryBreaks = (at: number[]): FitResult => {
     const f = fitStudy(study, { seed, breaks: at, trial: true, assume: constraint });
     const applied = typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string';
-    const entry = { constraint: `${constraint === 'none' ? '' : `${constraint}, `}piecewise (breaks at ${at.map((t) => t.toPrecision(3)).join(', ')})`, relative_residual: f.report.relative_residual, used: applied && f.report.relative_residual <= current };
+    const entry = { constraint: refitLabel(constraint, at), relative_residual: f.report.relative_residual, used: applied && f.report.relative_residual <= current };
     return { ...f, report: { ...f.report, refits: [...fit.report.refits, entry] } };
   };
   let best: { set: (typeof sets)[number]; fit: FitResult; z: number; cmp: ReturnType<typeof comparePredictions> } | null = null;

@@ -209,7 +209,7 @@ function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint
   }
   const core = runCore(study, prep, constraint, seed, R, progress, breaks);
   const res = assemble(study, prep, core, seed, t0);
-  const label = breaks?.length ? `${constraint === 'none' ? 'piecewise' : `${constraint}, piecewise`} (breaks at ${breaks.map((t) => t.toPrecision(3)).join(', ')})` : constraint;
+  const label = refitLabel(constraint, breaks);
   // compared with the fit in use (the unconstrained one unless an earlier refit replaced it)
   const prevEntry = previous.report.refits.find((r) => r.used) ?? previous.report.refits.find((r) => r.constraint === 'none') ?? { constraint: 'none', relative_residual: previous.report.relative_residual, used: true };
   const applied = core.constraint === constraint && (!breaks?.length || core.hyper.breaks !== undefined);
@@ -230,6 +230,11 @@ function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint
       ? `the ${label} refit is used${forced ? ' (assumed by the user)' : ' (its cross-validated residual is not larger)'}`
       : `the ${label} refit fits worse (cross-validated residual ${res.report.relative_residual.toPrecision(3)} vs ${prevEntry.relative_residual.toPrecision(3)}); the unconstrained kernel is used`;
   return out;
+}
+
+/** How a refit is named in `refits[]`: its constraint, and the break points of a piecewise basis. */
+export function refitLabel(constraint: string, breaks?: readonly number[]): string {
+  return breaks?.length ? `${constraint === 'none' ? 'piecewise' : `${constraint}, piecewise`} (breaks at ${breaks.map((t) => t.toPrecision(3)).join(', ')})` : constraint;
 }
 
 /** A refit with bases broken at given points (interfaces), optionally also under symmetry. */

@@ -404,7 +404,6 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
         });
         deferredSkipped = plain.searches.some((st) => st.sizes.length > st.next) && (plain.searches.every((st) => st.done) || plainLower > enriched.score);
         if (!deferredSkipped) plain = resume(plain);
-        else plain = settle(plain, plain);
         if (enriched.score < plain.score) chosen = enriched;
         else chosen = plain;
       } else chosen = plain = resume(plain);
