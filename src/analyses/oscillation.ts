@@ -265,59 +265,131 @@ function basis4(theta: number, t: number, out: Float64Array): void {
   }
 }
 
-function objective4(G: Mat, x: Float64Array, segs: Segment[], theta: number): number {
-  let res = 0;
-  const f = new Float64Array(4);
-  for (const sg of segs) {
+/**
+ * The θ-independent part of the fourth-order fit on a set of segments (shared by a matrix and its
+ * replicates: it depends on the rows only): per segment the offsets t, and a 4m buffer whose first two
+ * columns hold {1, t} orthonormalised once by the same Gram–Schmidt steps `objective4` applies to the
+ * θ-dependent columns, so each evaluation orthogonalises only F₂ and F₃ (the same arithmetic as
+ * orthogonalising all four every time). The orthonormalised F₂, F₃ of every θ evaluated are kept
+ * (`memo`, per segment at 2·off[g]): the grid and much of the search path are the same θ values for
+ * the matrix and each of its replicates, which then cost one projection each.
+ */
+interface Prep4 { t: Float64Array[]; Q: Float64Array[]; off: Int32Array; points: number; memo: Map<number, Float64Array> }
+/** One matrix's segment values, Σy², and the energy captured by {1, t} (Σ of (q_kᵀy)² over k = 0, 1). */
+interface Data4 { y: Float64Array[]; yy: Float64Array; p01: Float64Array }
+
+/** At most this many θ values' columns are kept per fit (about 50 kB each on a 200-point kernel). */
+const MEMO4_MAX = 1024;
+
+function prepare4(x: Float64Array, segs: Segment[]): Prep4 {
+  const t: Float64Array[] = [], Qs: Float64Array[] = [];
+  const off = new Int32Array(segs.length);
+  let points = 0;
+  segs.forEach((sg, g) => {
     const m = sg.rows.length;
-    const Q = new Float64Array(4 * m), y = new Float64Array(m);
-    for (let q = 0; q < m; q++) {
-      const i = sg.rows[q]!;
-      basis4(theta, x[i]! - sg.xc, f);
-      for (let k = 0; k < 4; k++) Q[k * m + q] = f[k]!;
-      y[q] = G.data[i * G.cols + sg.col]!;
+    off[g] = points; points += m;
+    const ts = new Float64Array(m), Q = new Float64Array(4 * m);
+    for (let q = 0; q < m; q++) { ts[q] = x[sg.rows[q]!]! - sg.xc; Q[q] = 1; Q[m + q] = ts[q]!; }
+    for (let k = 0; k < 2; k++) if (!orthogonalise4(Q, m, k)) for (let q = 0; q < m; q++) Q[k * m + q] = 0;
+    t.push(ts); Qs.push(Q);
+  });
+  return { t, Q: Qs, off, points, memo: new Map() };
+}
+
+/**
+ * Modified Gram–Schmidt (twice) of column k of the m-row column-major Q against columns 0..k−1, then
+ * normalised; false (column left unnormalised) when it is dependent on them (norm² ≤ 1e-24 of its own).
+ */
+function orthogonalise4(Q: Float64Array, m: number, k: number): boolean {
+  const ok = k * m;
+  let n0 = 0;
+  for (let q = 0; q < m; q++) n0 += Q[ok + q]! ** 2;
+  for (let pass = 0; pass < 2; pass++) for (let l = 0; l < k; l++) {
+    const ol = l * m;
+    let d = 0;
+    for (let q = 0; q < m; q++) d += Q[ol + q]! * Q[ok + q]!;
+    for (let q = 0; q < m; q++) Q[ok + q] -= d * Q[ol + q]!;
+  }
+  let nn = 0;
+  for (let q = 0; q < m; q++) nn += Q[ok + q]! ** 2;
+  if (!(nn > 1e-24 * n0)) return false;
+  const inv = 1 / Math.sqrt(nn);
+  for (let q = 0; q < m; q++) Q[ok + q] *= inv;
+  return true;
+}
+
+/** The orthonormalised F₂(θ), F₃(θ) of every segment (a dependent column as zeros), from the memo or computed. */
+function columns4(pr: Prep4, theta: number): Float64Array {
+  const hit = pr.memo.get(theta);
+  if (hit) return hit;
+  const out = new Float64Array(2 * pr.points);
+  const f = new Float64Array(4);
+  for (let g = 0; g < pr.Q.length; g++) {
+    const Q = pr.Q[g]!, t = pr.t[g]!, m = t.length, o = 2 * pr.off[g]!;
+    for (let q = 0; q < m; q++) { basis4(theta, t[q]!, f); Q[2 * m + q] = f[2]!; Q[3 * m + q] = f[3]!; }
+    for (let k = 2; k < 4; k++) {
+      const ok = k * m, oo = o + (k - 2) * m;
+      if (orthogonalise4(Q, m, k)) for (let q = 0; q < m; q++) out[oo + q] = Q[ok + q]!;
+      else for (let q = 0; q < m; q++) Q[ok + q] = 0; // out stays 0
     }
-    let yy = 0;
-    for (let q = 0; q < m; q++) yy += y[q]! * y[q]!;
+  }
+  if (pr.memo.size < MEMO4_MAX) pr.memo.set(theta, out);
+  return out;
+}
+
+function data4(G: Mat, pr: Prep4, segs: Segment[]): Data4 {
+  const y: Float64Array[] = [], yy = new Float64Array(segs.length), p01 = new Float64Array(segs.length);
+  segs.forEach((sg, g) => {
+    const m = sg.rows.length, Q = pr.Q[g]!;
+    const ys = new Float64Array(m);
+    for (let q = 0; q < m; q++) ys[q] = G.data[sg.rows[q]! * G.cols + sg.col]!;
+    let e = 0;
+    for (let q = 0; q < m; q++) e += ys[q]! * ys[q]!;
     let proj = 0;
-    // modified Gram–Schmidt (twice) on the 4 columns; energy captured = Σ (q_kᵀ y)²
-    for (let k = 0; k < 4; k++) {
-      const ok = k * m;
-      let n0 = 0;
-      for (let q = 0; q < m; q++) n0 += Q[ok + q]! ** 2;
-      for (let pass = 0; pass < 2; pass++) for (let l = 0; l < k; l++) {
-        const ol = l * m;
-        let d = 0;
-        for (let q = 0; q < m; q++) d += Q[ol + q]! * Q[ok + q]!;
-        for (let q = 0; q < m; q++) Q[ok + q] -= d * Q[ol + q]!;
-      }
-      let nn = 0;
-      for (let q = 0; q < m; q++) nn += Q[ok + q]! ** 2;
-      if (!(nn > 1e-24 * n0)) { for (let q = 0; q < m; q++) Q[ok + q] = 0; continue; }
-      const inv = 1 / Math.sqrt(nn);
+    for (let k = 0; k < 2; k++) { let d = 0; for (let q = 0; q < m; q++) d += Q[k * m + q]! * ys[q]!; proj += d * d; }
+    y.push(ys); yy[g] = e; p01[g] = proj;
+  });
+  return { y, yy, p01 };
+}
+
+/** Residual energy of all segments for θ: Σ (‖y‖² − ‖projection of y on {1, t, F₂(θ, t), F₃(θ, t)}‖²). */
+function objective4(pr: Prep4, dt: Data4, theta: number): number {
+  const C = columns4(pr, theta);
+  let res = 0;
+  for (let g = 0; g < pr.Q.length; g++) {
+    const y = dt.y[g]!, m = y.length, o = 2 * pr.off[g]!;
+    let proj = dt.p01[g]!;
+    for (let k = 0; k < 2; k++) {
+      const ok = o + k * m;
       let d = 0;
-      for (let q = 0; q < m; q++) { Q[ok + q] *= inv; d += Q[ok + q]! * y[q]!; }
+      for (let q = 0; q < m; q++) d += C[ok + q]! * y[q]!;
       proj += d * d;
     }
-    res += Math.max(0, yy - proj);
+    res += Math.max(0, dt.yy[g]! - proj);
   }
   return res;
 }
 
-/** Fit θ of the fourth-order family: grid in the signed wavenumber, then a shrinking-step search. */
-function fitWave4(G: Mat, x: Float64Array, segs: Segment[], kmax: number, startKs?: number): { theta: number; ks: number; residual: number } {
+/**
+ * Fit θ of the fourth-order family: grid in the signed wavenumber, then a shrinking-step search.
+ * A trial at the previous centre (the step just taken, reversed) is not re-evaluated: its value is known.
+ */
+function fitWave4(G: Mat, pr: Prep4, segs: Segment[], kmax: number, startKs?: number): { theta: number; ks: number; residual: number } {
   const E = energy(G, segs);
+  const dt = data4(G, pr, segs);
   const dk = (2 * kmax) / 80;
   let ks: number, f: number;
-  if (startKs !== undefined) { ks = startKs; f = objective4(G, x, segs, toTheta(ks)); }
+  if (startKs !== undefined) { ks = startKs; f = objective4(pr, dt, toTheta(ks)); }
   else {
     ks = 0; f = Infinity;
-    for (let a = 0; a <= 80; a++) { const k = -kmax + a * dk; const v = objective4(G, x, segs, toTheta(k)); if (v < f) { f = v; ks = k; } }
+    for (let a = 0; a <= 80; a++) { const k = -kmax + a * dk; const v = objective4(pr, dt, toTheta(k)); if (v < f) { f = v; ks = k; } }
   }
   let step = startKs !== undefined ? dk / 8 : dk / 2;
+  let prevKs = NaN, prevF = NaN;
   for (let it = 0; it < (startKs !== undefined ? 30 : 60) && step > 1e-7 * (1 + Math.abs(ks)); it++) {
-    const up = objective4(G, x, segs, toTheta(ks + step)), dn = objective4(G, x, segs, toTheta(ks - step));
-    if (up < f && up <= dn) { f = up; ks += step; } else if (dn < f) { f = dn; ks -= step; } else step /= 2;
+    const ku = ks + step, kd = ks - step;
+    const up = ku === prevKs ? prevF : objective4(pr, dt, toTheta(ku)), dn = kd === prevKs ? prevF : objective4(pr, dt, toTheta(kd));
+    if (up < f && up <= dn) { prevKs = ks; prevF = f; f = up; ks = ku; } else if (dn < f) { prevKs = ks; prevF = f; f = dn; ks = kd; } else step /= 2;
   }
   return { theta: toTheta(ks), ks, residual: E > 0 ? Math.sqrt(f / E) : NaN };
 }
@@ -358,14 +430,15 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   // θ of the fourth-order family is identified only when plain cubics (θ = 0) do not already explain the segments
   // parsimony: the fourth-order family nests the drift-free second-order one, so it is fitted only
   // when the second-order model does not explain the segments
-  const f4 = adequate ? { theta: NaN, ks: NaN, residual: NaN } : fitWave4(kernel.G, x, segs, kmax);
-  const cubicResidual = adequate ? NaN : Math.sqrt(objective4(kernel.G, x, segs, 0) / E);
+  const pr4 = adequate ? null : prepare4(x, segs);
+  const f4 = pr4 ? fitWave4(kernel.G, pr4, segs, kmax) : { theta: NaN, ks: NaN, residual: NaN };
+  const cubicResidual = pr4 ? Math.sqrt(objective4(pr4, data4(kernel.G, pr4, segs), 0) / E) : NaN;
   const adequate4 = !adequate && f4.residual <= allowance, identified = !adequate && cubicResidual > allowance;
   // replicate refits only when the fourth-order fit can vote (adequate). When plain cubics already
   // explain the segments, θ is weakly determined near 0 and a refit started at the estimate would
   // understate its spread: each replicate is then refitted from the full grid, so that the vote
   // (θ's one-sided 95 % bound below the lowest mode, `decideAbove`) rests on θ's real spread
-  const rf4 = adequate4 ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, x, segs, kmax, identified ? f4.ks : undefined)) : [];
+  const rf4 = adequate4 ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, pr4!, segs, kmax, identified ? f4.ks : undefined)) : [];
   const fourth: FourthOrderWave = {
     theta: f4.theta, residual: f4.residual, thetaSd: rf4.length >= 3 ? std(rf4.map((r) => r.theta)) : null,
     adequate: adequate4, identified, cubicResidual,
