@@ -9,7 +9,7 @@ import { existsSync, statSync } from 'node:fs';
 import { readStudy } from './io/study.js';
 import { readKernel, writeKernel, isKernelDir } from './io/kernel.js';
 import { withOutput, type OutputStage } from './io/output.js';
-import { fitStudy, refit, refitLabel } from './fit/index.js';
+import { fitStudy, refit, refitLabel, completeTrial } from './fit/index.js';
 import { detectInterfaces } from './analyses/interfaces.js';
 import { comparePredictions, akaikeWeights, upperNormalQuantile } from './analyses/util/a_predictive.js';
 import { diagnose } from './diagnose.js';
@@ -134,11 +134,23 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   const constraint = symmetric ? 'symmetric' as const : 'none' as const;
   const describe = (i: (typeof det)[number]) => `${i.location.toPrecision(3)} (confidence ${i.confidence.toFixed(2)}, existence ${i.existence.toFixed(2)})`;
   let breaks: number[] = [];
+  // every fit with breaks is a trial fit (no replicates; fitStudy `trial`); the one finally in use is finished
+  // into the full fit once, at the end (completeTrial: same result as a refit, without redoing the search)
+  const tryAt = (at: number[], against: FitResult): FitResult => {
+    const f = fitStudy(study, { seed, breaks: at, trial: true, assume: constraint });
+    const prev = against.report.refits.find((r) => r.used)?.relative_residual ?? against.report.relative_residual;
+    const applied = typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string';
+    const used = applied && f.report.relative_residual <= prev;
+    const earlier = against.report.refits.length ? against.report.refits : [{ constraint: 'none', relative_residual: against.report.relative_residual, used: true }];
+    const entry = { constraint: refitLabel(constraint, at), relative_residual: applied ? f.report.relative_residual : prev, used };
+    const refits = [...earlier.map((r) => ({ ...r, used: r.used && !used })), entry];
+    return used ? { ...f, report: { ...f.report, refits } } : { ...against, report: { ...against.report, refits } };
+  };
   const confident = det.filter((i) => i.confidence >= INTERFACE_REFIT_CONFIDENCE);
   if (confident.length) {
     const at = confident.map((i) => i.location);
     say(`interfaces at ${at.map((t) => t.toPrecision(3)).join(', ')}: refitting with bases broken there`);
-    const r = refit(study, fit, { constraint, breaks: at });
+    const r = tryAt(at, fit);
     const used = r.report.refits[r.report.refits.length - 1]!.used;
     if (used) breaks = at;
     fit = annotateLast(r, at, `interface${at.length > 1 ? 's' : ''} at ${confident.map(describe).join(', ')} located with confidence ≥ ${INTERFACE_REFIT_CONFIDENCE}; ${used ? 'used: its cross-validated residual is not larger' : 'not used: its cross-validated residual is larger'}`);
@@ -154,7 +166,7 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
       });
       if (to.some((t, b) => t !== sf.breaks[b])) {
         say(`the breaks fit better at ${to.map((t) => t.toPrecision(3)).join(', ')}: refitting there`);
-        const m = refit(study, fit, { constraint, breaks: to });
+        const m = tryAt(to, fit);
         if (m.report.refits[m.report.refits.length - 1]!.used) {
           const ws = sf.breaks.map((_, b) => [...sf.moves.filter((x) => x.b === b).map((x) => x.p), sf.pStay[b]!].map((w) => w.toPrecision(2)).join(' / '));
           breaks = to;
@@ -163,6 +175,12 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
       }
     }
   }
+  // the fit in use finished with its replicates (a no-op for the fit handed in), its refit entries kept
+  const finish = (f: FitResult, at: number[]): FitResult => {
+    if (f.noise.replicates.length >= fitIn.noise.replicates.length) return f;
+    const full = completeTrial(study, fitIn, f, { constraint, breaks: at });
+    return { ...full, report: { ...full.report, refits: f.report.refits } };
+  };
   const probable = det.filter((i) => i.confidence < INTERFACE_REFIT_CONFIDENCE && i.existence >= 0.5);
   const sets: { at: Located[]; why: string }[] = [];
   if (probable.length) sets.push({ at: probable, why: `interface${probable.length > 1 ? 's' : ''} probably at ${probable.map(describe).join(', ')}, located with confidence below ${INTERFACE_REFIT_CONFIDENCE}` });
@@ -172,7 +190,7 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
     if (!at.length || sets.some((q) => q.at.length === at.length && q.at.every((x, k) => near(x, at[k]!)))) continue;
     sets.push({ at, why: `sharp change${at.length > 1 ? 's' : ''} of ${p.feature} not ruled out at ${at.map((x) => x.location.toPrecision(3)).join(', ')} (weight of the sharp-change models ${p.weight.toFixed(2)})` });
   }
-  if (!sets.length) return fit;
+  if (!sets.length) return finish(fit, breaks);
   const alpha = PROBABLE_BREAK_ALPHA / sets.length, zMin = upperNormalQuantile(alpha);
   const level = `one-sided level ${alpha.toPrecision(2)}${sets.length > 1 ? ` (0.001 over ${sets.length} trial sets)` : ''}`;
   const testText = (c: ReturnType<typeof comparePredictions>) => `paired comparison of the prediction errors over ${c.experiments} experiments: z = ${c.z.toFixed(2)}, cross-validated loss ${c.relativeGain >= 0 ? 'lower' : 'higher'} by ${(100 * Math.abs(c.relativeGain)).toPrecision(2)} %`;
@@ -206,7 +224,7 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
     for (const r of refused) out = declined(out, r.entry, r.reason);
     return out;
   };
-  if (!best) return withRefused(fit);
+  if (!best) return finish(withRefused(fit), breaks);
   for (const x of best.set.at) if (!det.includes(x)) det.push(x);
   // backward elimination over the added breaks (each removal a refit; at most as many rounds as breaks)
   let added = best.set.at.map((i) => i.location), trial = best.fit, cmp = best.cmp;
@@ -225,9 +243,9 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
     trial = weakest.fit;
     cmp = comparePredictions(study, fit, trial);
   }
-  if (trial.noise.replicates.length < fit.noise.replicates.length) {
-    const full = refit(study, fit, { constraint, breaks: all(added) });
-    if (!full.report.refits[full.report.refits.length - 1]!.used) return withRefused(fit);
+  if (trial.noise.replicates.length < fitIn.noise.replicates.length) {
+    const full = completeTrial(study, fitIn, trial, { constraint, breaks: all(added) });
+    if (!full.report.refits[full.report.refits.length - 1]!.used) return finish(withRefused(fit), breaks);
     trial = full;
   }
   // the refused trials are listed before the one used
@@ -252,7 +270,7 @@ interface Sides { ref: FitResult; breaks: number[]; u: number[]; moves: { b: num
 
 function sideFits(study: Study, fit: FitResult, located: Located[], seed: number, say: (m: string) => void): Sides | null {
   const spec = (fit.report.hyperparameters as Record<string, unknown>).breaks;
-  if (typeof spec !== 'string' || !spec.length || !fit.noise.replicates.length) return null;
+  if (typeof spec !== 'string' || !spec.length) return null;
   if (fit.kernel.components.in !== 1 || fit.kernel.components.out !== 1) return null;
   const breaks = spec.split(',').map(Number);
   const [lo, hi] = [Math.min(...fit.kernel.pointsOut.data), Math.max(...fit.kernel.pointsOut.data)];

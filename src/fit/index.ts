@@ -12,7 +12,7 @@ import { relativeError, frobenius } from '../linalg/dense.js';
 import { Rng } from '../linalg/rng.js';
 import { DataError } from '../errors.js';
 import { prepare, measured, type Prepared } from './prepare.js';
-import { fitPath1d } from './path1d.js';
+import { searchPath1d, finishPath1d, type Path1dSearch } from './path1d.js';
 import { fitPathSpan } from './span.js';
 import { coverage } from './coverage.js';
 import type { CoreFit } from './core.js';
@@ -49,13 +49,28 @@ function defaultReplicates(_prep: Prepared): number {
 }
 
 function runCore(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[], scaling = true, fixed?: FitOptions['fixed']): CoreFit {
-  const sets = Array.from({ length: prep.nOut * prep.cOut }, (_, c) => measured(prep, c));
-  const rng = new Rng(seed);
-  const sigmaKnown = study.noise?.sigma !== undefined && study.noise.sigma > 0 ? study.noise.sigma : undefined;
-  const common = { rng, replicates, sigmaKnown, progress, scaling };
-  if (prep.dimension === 1) return fitPath1d(prep, sets, { ...common, constraint, breaks, fixed });
-  return fitPathSpan(prep, sets, { ...common, constraint });
+  return runCoreKeeping(study, prep, constraint, seed, replicates, progress, breaks, scaling, fixed).core;
 }
+
+function coreOptions(study: Study, seed: number, replicates: number, progress: (m: string) => void, scaling: boolean) {
+  const sigmaKnown = study.noise?.sigma !== undefined && study.noise.sigma > 0 ? study.noise.sigma : undefined;
+  return { rng: new Rng(seed), replicates, sigmaKnown, progress, scaling };
+}
+
+/** runCore, also handing back a 1-D fit's settled search (to finish a trial fit with replicates later). */
+function runCoreKeeping(study: Study, prep: Prepared, constraint: Constraint, seed: number, replicates: number, progress: (m: string) => void, breaks?: readonly number[], scaling = true, fixed?: FitOptions['fixed']): { core: CoreFit; search?: Path1dSearch } {
+  const sets = Array.from({ length: prep.nOut * prep.cOut }, (_, c) => measured(prep, c));
+  const common = coreOptions(study, seed, replicates, progress, scaling);
+  if (prep.dimension !== 1) return { core: fitPathSpan(prep, sets, { ...common, constraint }) };
+  const s = searchPath1d(prep, sets, { ...common, constraint, breaks, fixed });
+  return 'method' in s ? { core: s } : { core: finishPath1d(s, common), search: s };
+}
+
+/**
+ * Trial fits whose search can be finished into the full fit (`completeTrial`): keyed by the trial's kernel
+ * matrix, held only as long as the trial fit is.
+ */
+const pendingTrials = new WeakMap<object, { study: Study; prep: Prepared; search: Path1dSearch; constraint: 'none' | 'symmetric'; breaks?: readonly number[] }>();
 
 function assemble(study: Study, prep: Prepared, core: CoreFit, seed: number, t0: number): FitResult {
   const kernel: Kernel = {
@@ -175,8 +190,9 @@ export function fitStudy(study: Study, opts: FitOptions = {}): FitResult {
   const prep = prepare(study);
   const assume = opts.assume ?? 'none';
   if (opts.trial && prep.dimension === 1) {
-    const core = runCore(study, prep, assume, seed, 0, progress, opts.breaks, false, opts.fixed);
+    const { core, search } = runCoreKeeping(study, prep, assume, seed, 0, progress, opts.breaks, false, opts.fixed);
     const res = assemble(study, prep, core, seed, t0);
+    if (search && !opts.fixed && assume !== 'translation') pendingTrials.set(res.kernel.G, { study, prep, search, constraint: assume, breaks: opts.breaks });
     res.report.uncertainty.method = 'none (a trial fit for model comparison: no bootstrap replicates)';
     res.report.linearity = { verdict: 'not-tested', statistic: null, threshold: null, note: 'not tested in a trial fit' };
     return res;
@@ -195,7 +211,7 @@ function refitApplies(prep: Prepared): boolean {
   return prep.dimension === 1 && prep.cIn === 1 && prep.cOut === 1;
 }
 
-function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint: 'none' | 'symmetric' | 'translation', seed: number, R: number, progress: (m: string) => void, forced: boolean, breaks?: readonly number[]): FitResult {
+function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint: 'none' | 'symmetric' | 'translation', seed: number, R: number, progress: (m: string) => void, forced: boolean, breaks?: readonly number[], settled?: Path1dSearch): FitResult {
   const t0 = Date.now();
   if (!refitApplies(prep)) {
     // nothing to refit (the span model and block kernels have no constrained form): say so, keep the fit
@@ -207,7 +223,7 @@ function refitFrom(study: Study, prep: Prepared, previous: FitResult, constraint
     report.refit_note = `a ${constraint} refit is implemented for scalar 1-D studies only (this one is ${prep.dimension}-D${prep.cIn > 1 || prep.cOut > 1 ? ' with several components' : ''}); the unconstrained kernel is used`;
     return { kernel: previous.kernel, noise: previous.noise, report };
   }
-  const core = runCore(study, prep, constraint, seed, R, progress, breaks);
+  const core = settled ? finishPath1d(settled, coreOptions(study, seed, R, progress, true)) : runCore(study, prep, constraint, seed, R, progress, breaks);
   const res = assemble(study, prep, core, seed, t0);
   const label = refitLabel(constraint, breaks);
   // compared with the fit in use (the unconstrained one unless an earlier refit replaced it)
@@ -248,6 +264,25 @@ export interface RefitSpec {
  * Structure-aware refit (the diagnosis calls it once it has established the structure). The refit is kept
  * only if its cross-validated residual is not larger than the previous fit's.
  */
+/**
+ * The refit `refit(study, previous, { constraint, breaks })` would give, for a trial fit made with those
+ * (fitStudy `trial`, no `fixed`): the trial's hyper-parameter search is finished with the bootstrap replicates
+ * and the scaling test instead of being run again. The result is the same; a trial of another study or one
+ * with fixed hyper-parameters is refitted from scratch.
+ */
+export function completeTrial(study: Study, previous: FitResult, trial: FitResult, spec: RefitSpec): FitResult {
+  const p = pendingTrials.get(trial.kernel.G);
+  const same = p && p.study === study && p.constraint === (spec.constraint ?? 'none') && sameBreaks(p.breaks, spec.breaks);
+  if (!same || !refitApplies(p.prep)) return refit(study, previous, spec);
+  const R = previous.noise.replicates.length || defaultReplicates(p.prep);
+  return refitFrom(study, p.prep, previous, p.constraint, previous.report.seed, R, () => {}, false, spec.breaks, p.search);
+}
+
+function sameBreaks(a?: readonly number[], b?: readonly number[]): boolean {
+  const x = a ?? [], y = b ?? [];
+  return x.length === y.length && x.every((t, k) => t === y[k]);
+}
+
 export function refit(study: Study, previous: FitResult, constraint: 'symmetric' | 'translation' | RefitSpec): FitResult {
   const prep = prepare(study);
   const R = previous.noise.replicates.length || defaultReplicates(prep);

@@ -287,13 +287,33 @@ function behindReference(ref: KinkChoice): (K: number, gcv: number) => boolean {
 /** Highest ωL considered: 48 ≈ 7.6 periods over the interval. */
 const SCAN_TOP_OMEGA_L = 48;
 
-export function fitPath1d(prep: Prepared, sets: number[][], o: {
+export interface Path1dOptions {
   constraint: Constraint; rng: Rng; replicates: number; sigmaKnown?: number; progress: (m: string) => void; scaling: boolean;
   /** interior break points: the basis is piecewise Legendre on the pieces between them (piecewiseKinkBasis) */
   breaks?: readonly number[];
   /** with breaks: fit at these hyper-parameters instead of choosing them (a trial fit comparing break positions) */
   fixed?: { K: number; order: number; jump: number; lambda: number };
-}): CoreFit {
+}
+
+/** The 1-D fit: the hyper-parameter search (`searchPath1d`), then replicates and the scaling test (`finishPath1d`). */
+export function fitPath1d(prep: Prepared, sets: number[][], o: Path1dOptions): CoreFit {
+  const s = searchPath1d(prep, sets, o);
+  return 'method' in s ? s : finishPath1d(s, o);
+}
+
+/**
+ * What the search settled: the chosen family, its systems, fits and kernel. It draws nothing from the random
+ * stream, so finishing it later with a fresh stream of the same seed gives the fit a full run gives.
+ */
+export interface Path1dSearch {
+  prep: Prepared; sets: number[][]; Kf: number; pieces: number; breaks: number[]; notes: string[]; constraint: Constraint;
+  basis: KinkBasis; setup: KinkSetup; systems: NormalSystem[]; searches: KinkSearch[]; choices: KinkChoice[]; fits: KinkFit[];
+  thetas: Float64Array[]; G: Mat; uh: Float64Array; sigma2: number[];
+  oscillatory: { omega: number; small: number; plainSmall: number; full: number | null } | null; plainScore: number; deferredSkipped: boolean;
+}
+
+/** The hyper-parameter search of the 1-D fit (a translation-invariant fit is done whole and returned as is). */
+export function searchPath1d(prep: Prepared, sets: number[][], o: Path1dOptions): Path1dSearch | CoreFit {
   const [blo, bhi] = prep.box[0]!;
   const breaks = (o.breaks ?? []).filter((t) => t > blo && t < bhi);
   const pieces = new Set(breaks).size + 1;
@@ -419,6 +439,13 @@ export function fitPath1d(prep: Prepared, sets: number[][], o: {
   const uh = new Float64Array(prep.nOut * prep.cOut);
   homogeneousOf(prep, setup, thetas, uh);
   const sigma2 = fits.map((f, p) => f.gcv.rss / Math.max(1, systems[p]!.nObs - f.gcv.dof));
+  return { prep, sets, Kf, pieces, breaks, notes, constraint, basis, setup, systems, searches: chosen.searches, choices, fits, thetas, G, uh, sigma2, oscillatory, plainScore, deferredSkipped };
+}
+
+/** Replicates, truncation error and scaling test of a settled search (o.replicates = 0: none — a trial fit). */
+export function finishPath1d(s: Path1dSearch, o: Pick<Path1dOptions, 'rng' | 'replicates' | 'sigmaKnown' | 'progress' | 'scaling'>): CoreFit {
+  const { prep, sets, Kf, pieces, breaks, notes, constraint, basis, setup, systems, choices, fits, thetas, G, uh, sigma2, oscillatory, plainScore, deferredSkipped } = s;
+  const chosen = { searches: s.searches };
   const sigmaRep = sigma2.map((s2) => o.sigmaKnown ?? Math.sqrt(s2));
 
   // ---- parametric bootstrap. A replicate's data differ from the fit's by fresh noise ε on the measured

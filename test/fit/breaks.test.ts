@@ -4,7 +4,7 @@
  * of G is linear in x and in s (reference (e) below), so the broken model holds G exactly.
  */
 import { describe, it, expect } from 'vitest';
-import { fitStudy } from '../../src/fit/index.js';
+import { fitStudy, refit, completeTrial } from '../../src/fit/index.js';
 import { relativeError } from '../../src/linalg/dense.js';
 import { synth1d } from './studies.js';
 
@@ -51,6 +51,26 @@ describe('fit with bases broken at interfaces', () => {
       expect(trial.report.hyperparameters.constraint).toBe(assume);
       // closed form (e): the noise-0.01 broken fit is within a percent
       expect(relativeError(trial.kernel.G, G)).toBeLessThan(0.01);
+    }
+  });
+
+  it('a trial fit finished with its replicates (completeTrial) is the refit, bit for bit, and stays within the closed form', () => {
+    const { study, G } = synth1d(g, { seed: 7, noise: 0.01 });
+    const base = fitStudy(study, { seed: 7, replicates: 6 });
+    for (const constraint of ['none', 'symmetric'] as const) {
+      const spec = { constraint, breaks: [c] };
+      const direct = refit(study, base, spec);
+      const trial = fitStudy(study, { seed: 7, breaks: [c], assume: constraint, trial: true });
+      const done = completeTrial(study, base, trial, spec);
+      expect(relativeError(done.kernel.G, direct.kernel.G)).toBe(0);
+      expect(done.noise.replicates.length).toBe(6);
+      done.noise.replicates.forEach((R, r) => expect(relativeError(R, direct.noise.replicates[r]!)).toBe(0));
+      expect({ ...done.report, seconds: 0 }).toEqual({ ...direct.report, seconds: 0 });
+      // closed form (e): the finished fit is the broken fit, within a percent of G at this noise
+      expect(relativeError(done.kernel.G, G)).toBeLessThan(0.01);
+      // a trial of other breaks is not finished but refitted at the breaks asked for
+      const other = completeTrial(study, base, trial, { constraint, breaks: [0.5] });
+      expect(other.report.hyperparameters.breaks).toBe('0.5');
     }
   });
 
