@@ -45,8 +45,8 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array, keep = false, rebuil
   const z = new Float64Array(v);
   const d = new Float64Array(n), e = new Float64Array(n);
   const u = new Float64Array(n), w = new Float64Array(n);
-  // Householder: for k = 0..n−3 annihilate A[k+2.., k] (one small function per step, compiled once by V8)
-  for (let k = 0; k < n - 2; k++) householderStep(A, n, k, z, d, e, u, w);
+  // Householder: for k = 0..n−3 annihilate A[k+2.., k] (small functions, compiled once by V8)
+  householderReduce(A, n, z, d, e, u, w);
   if (n >= 2) { d[n - 2] = A[(n - 2) * n + n - 2]!; e[n - 2] = A[(n - 1) * n + n - 2]!; }
   d[n - 1] = A[(n - 1) * n + n - 1]!;
   e[n - 1] = 0;
@@ -60,22 +60,56 @@ export function eigenCoordinates(Ain: Mat, v: Float64Array, keep = false, rebuil
   return { values: eig.values, coords: eig.coords[0]!, tri: keep ? tri : undefined };
 }
 
-/** Step k of the Householder tridiagonalisation in `eigenCoordinates` (lower triangle of A, row-major), z ← H_k z. */
-function householderStep(A: Float64Array, n: number, k: number, z: Float64Array, d: Float64Array, e: Float64Array, u: Float64Array, w: Float64Array): void {
+/**
+ * The Householder tridiagonalisation of `eigenCoordinates` (lower triangle of A, row-major), z ← Qᵀ z. Step k's
+ * rank-2 update of the trailing block is done in the same pass over the matrix as step k + 1's product with its
+ * reflection vector (whose column is updated first): the arithmetic of each entry, and its order, is that of
+ * the two passes done one after the other, with half the memory traffic.
+ */
+function householderReduce(A: Float64Array, n: number, z: Float64Array, d: Float64Array, e: Float64Array, u0: Float64Array, w0: Float64Array): void {
+  if (n < 3) return;
+  let u: Float64Array = u0, w: Float64Array = w0, u2: Float64Array = new Float64Array(n), w2: Float64Array = new Float64Array(n);
+  let beta = reflector(A, n, 0, d, e, u);
+  if (beta) { symmetricTimes(A, n, 0, u, w); finishProduct(n, 0, u, w, beta); reflectVector(n, 0, u, z, beta); }
+  for (let k = 0; k < n - 2; k++) {
+    if (k + 1 >= n - 2) { if (beta) updateTrailing(A, n, k, u, w, k + 1); break; }
+    let beta2: number;
+    if (!beta) {
+      beta2 = reflector(A, n, k + 1, d, e, u2);
+      if (beta2) symmetricTimes(A, n, k + 1, u2, w2);
+    } else {
+      updateColumn(A, n, k, u, w);
+      beta2 = reflector(A, n, k + 1, d, e, u2);
+      if (beta2) updateAndMultiply(A, n, k, u, w, u2, w2);
+      else updateTrailing(A, n, k, u, w, k + 2);
+    }
+    if (beta2) { finishProduct(n, k + 1, u2, w2, beta2); reflectVector(n, k + 1, u2, z, beta2); }
+    [u, u2] = [u2, u]; [w, w2] = [w2, w];
+    beta = beta2;
+  }
+}
+
+/** Reflection of step k from column k (rows k+1..): u[k+1..] = x − s e₁, d[k], e[k]; returns β = 2/(vᵀv), 0 for none. */
+function reflector(A: Float64Array, n: number, k: number, d: Float64Array, e: Float64Array, u: Float64Array): number {
   let alpha = 0;
   for (let i = k + 1; i < n; i++) alpha += A[i * n + k]! * A[i * n + k]!;
   alpha = Math.sqrt(alpha);
   const x0 = A[(k + 1) * n + k]!;
-  if (alpha === 0) { d[k] = A[k * n + k]!; e[k] = 0; return; }
+  d[k] = A[k * n + k]!;
+  if (alpha === 0) { e[k] = 0; return 0; }
   const s = x0 > 0 ? -alpha : alpha;
   // v = x − s e1, H = I − 2 v vᵀ / (vᵀv)
   for (let i = k + 1; i < n; i++) u[i] = A[i * n + k]!;
   u[k + 1] = x0 - s;
   let vv = 0;
   for (let i = k + 1; i < n; i++) vv += u[i]! * u[i]!;
-  if (vv === 0) { d[k] = A[k * n + k]!; e[k] = x0; return; }
-  const beta = 2 / vv;
-  // p = β A22 u from the lower triangle (rows are contiguous), then A22 −= u wᵀ + w uᵀ on the lower triangle
+  if (vv === 0) { e[k] = x0; return 0; }
+  e[k] = s;
+  return 2 / vv;
+}
+
+/** w = A22 u on the trailing block of step k, from its lower triangle (rows are contiguous) */
+function symmetricTimes(A: Float64Array, n: number, k: number, u: Float64Array, w: Float64Array): void {
   for (let i = k + 1; i < n; i++) w[i] = 0;
   for (let i = k + 1; i < n; i++) {
     const o = i * n, ui = u[i]!;
@@ -83,21 +117,54 @@ function householderStep(A: Float64Array, n: number, k: number, z: Float64Array,
     for (let j = k + 1; j < i; j++) { const a = A[o + j]!; acc += a * u[j]!; w[j] += a * ui; }
     w[i] += acc + A[o + i]! * ui;
   }
+}
+
+/** p = β A22 u, then w = p − (β pᵀu / 2) u */
+function finishProduct(n: number, k: number, u: Float64Array, w: Float64Array, beta: number): void {
   let pu = 0;
   for (let i = k + 1; i < n; i++) { w[i] = beta * w[i]!; pu += w[i]! * u[i]!; }
   const kk = (beta * pu) / 2;
   for (let i = k + 1; i < n; i++) w[i] = w[i]! - kk * u[i]!;
-  for (let i = k + 1; i < n; i++) {
-    const ui = u[i]!, wi = w[i]!, o = i * n;
-    for (let j = k + 1; j <= i; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
-  }
-  d[k] = A[k * n + k]!;
-  e[k] = s;
-  // z ← H z on the trailing part
+}
+
+/** z ← H_k z on the trailing part */
+function reflectVector(n: number, k: number, u: Float64Array, z: Float64Array, beta: number): void {
   let uz = 0;
   for (let i = k + 1; i < n; i++) uz += u[i]! * z[i]!;
   const f = beta * uz;
   for (let i = k + 1; i < n; i++) z[i] -= f * u[i]!;
+}
+
+/** A22 −= u wᵀ + w uᵀ of step k on the lower triangle, columns from `from` on */
+function updateTrailing(A: Float64Array, n: number, k: number, u: Float64Array, w: Float64Array, from: number): void {
+  for (let i = Math.max(k + 1, from); i < n; i++) {
+    const ui = u[i]!, wi = w[i]!, o = i * n;
+    for (let j = from; j <= i; j++) A[o + j] -= ui * w[j]! + wi * u[j]!;
+  }
+}
+
+/** step k's update of column k + 1 (rows k + 1..): the column step k + 1 reflects */
+function updateColumn(A: Float64Array, n: number, k: number, u: Float64Array, w: Float64Array): void {
+  const j = k + 1, uj = u[j]!, wj = w[j]!;
+  for (let i = j; i < n; i++) A[i * n + j] -= u[i]! * wj + w[i]! * uj;
+}
+
+/** step k's update of columns k + 2.. together with w2 = A22′ u2 of step k + 1 (one pass over the block) */
+function updateAndMultiply(A: Float64Array, n: number, k: number, u: Float64Array, w: Float64Array, u2: Float64Array, w2: Float64Array): void {
+  const k2 = k + 2;
+  for (let i = k2; i < n; i++) w2[i] = 0;
+  for (let i = k2; i < n; i++) {
+    const ui = u[i]!, wi = w[i]!, vi = u2[i]!, o = i * n;
+    let acc = 0;
+    for (let j = k2; j < i; j++) {
+      const a = A[o + j]! - (ui * w[j]! + wi * u[j]!);
+      A[o + j] = a;
+      acc += a * u2[j]!; w2[j] += a * vi;
+    }
+    const a = A[o + i]! - (ui * w[i]! + wi * u[i]!);
+    A[o + i] = a;
+    w2[i] += acc + a * vi;
+  }
 }
 
 /**

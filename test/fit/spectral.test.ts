@@ -53,6 +53,24 @@ describe('Tridiagonal (kept Householder reduction)', () => {
   });
 });
 
+describe('Householder reduction with a step that has nothing to reflect', () => {
+  it('the hidden matrix with a decoupled entry 5 inserted at index 2: eigenvalues 2 − 2cos(kπ/(n+1)) and 5 (closed form)', () => {
+    const { A } = hidden();
+    const m = n + 1, at = 2;
+    const B = new Float64Array(m * m);
+    const src = (i: number) => (i < at ? i : i - 1);
+    for (let i = 0; i < m; i++) for (let j = 0; j < m; j++) {
+      if (i === at || j === at) continue;
+      B[i * m + j] = A[src(i) * n + src(j)]!;
+    }
+    B[at * m + at] = 5;
+    // row and column `at` stay decoupled through the reduction: step `at` finds its column zero below the diagonal
+    const { values } = eigenCoordinates({ rows: m, cols: m, data: B }, Float64Array.from({ length: m }, (_, i) => Math.sin(i + 1)));
+    const exact = [5, ...Array.from({ length: n }, (_, k) => 2 - 2 * Math.cos(((k + 1) * Math.PI) / (n + 1)))].sort((a, b) => a - b);
+    Array.from(values).sort((a, b) => a - b).forEach((g, k) => expect(Math.abs(g - exact[k]!)).toBeLessThan(1e-12));
+  });
+});
+
 describe('symmetricEigen (coverage\'s eigen-decomposition)', () => {
   it('hidden second-difference matrix: eigenvalues 2 − 2cos(kπ/(n+1)) descending, eigenvectors U·sin(jkπ/(n+1))·√(2/(n+1)) up to sign', async () => {
     const { symmetricEigen } = await import('../../src/fit/spectral.js');
