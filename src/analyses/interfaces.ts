@@ -307,23 +307,65 @@ export interface SegmentFit {
 
 function ramp(t: number): number { return t <= -1 ? 0 : t >= 1 ? 1 : (t + 1) / 2; }
 
-/** least squares with given basis columns (rows with NaN y skipped); returns RSS and coefficients */
-function lsq(cols: Float64Array[], y: Float64Array, wt: Float64Array, withVar = false): { rss: number; coef: Float64Array; varDiag: Float64Array } {
-  const m = cols.length, n = y.length;
-  const A = new Float64Array(m * m), b = new Float64Array(m);
-  for (let i = 0; i < n; i++) {
-    if (!Number.isFinite(y[i]!) || !(wt[i]! > 0)) continue;
-    const wi = wt[i]!;
-    for (let a = 0; a < m; a++) { b[a] += wi * cols[a]![i]! * y[i]!; for (let c = 0; c < m; c++) A[a * m + c] += wi * cols[a]![i]! * cols[c]![i]!; }
+/**
+ * The weighted cross products of one (y, weights) pair's basis columns, kept per pair of column
+ * arrays: the change-point searches refit with the same ramp and hat columns many times. Each entry
+ * is the same sum, over the same rows in the same order, that the normal equations accumulate.
+ */
+interface Normals { y: Float64Array; wt: Float64Array; rows: Int32Array; ids: Map<Float64Array, number>; gram: Map<number, number>; rhs: Map<number, number> }
+
+function normals(y: Float64Array, wt: Float64Array): Normals {
+  const rows: number[] = [];
+  for (let i = 0; i < y.length; i++) if (Number.isFinite(y[i]!) && wt[i]! > 0) rows.push(i);
+  return { y, wt, rows: Int32Array.from(rows), ids: new Map(), gram: new Map(), rhs: new Map() };
+}
+
+function colId(nq: Normals, c: Float64Array): number {
+  let id = nq.ids.get(c);
+  if (id === undefined) { id = nq.ids.size; nq.ids.set(c, id); }
+  return id;
+}
+
+/** Σ over the rows of wᵢ·a_i·b_i (in this order of the factors), cached per ordered pair of columns. */
+function cross(nq: Normals, a: Float64Array, b: Float64Array): number {
+  const key = colId(nq, a) * 1048576 + colId(nq, b);
+  let v = nq.gram.get(key);
+  if (v === undefined) {
+    v = 0;
+    const { rows, wt } = nq;
+    for (let q = 0; q < rows.length; q++) { const i = rows[q]!; v += wt[i]! * a[i]! * b[i]!; }
+    nq.gram.set(key, v);
   }
+  return v;
+}
+
+/** Σ over the rows of wᵢ·a_i·y_i, cached per column. */
+function crossY(nq: Normals, a: Float64Array): number {
+  const key = colId(nq, a);
+  let v = nq.rhs.get(key);
+  if (v === undefined) {
+    v = 0;
+    const { rows, wt, y } = nq;
+    for (let q = 0; q < rows.length; q++) { const i = rows[q]!; v += wt[i]! * a[i]! * y[i]!; }
+    nq.rhs.set(key, v);
+  }
+  return v;
+}
+
+/** least squares with given basis columns (rows with NaN y skipped); returns RSS and coefficients */
+function lsq(cols: Float64Array[], nq: Normals, withVar = false): { rss: number; coef: Float64Array; varDiag: Float64Array } {
+  const m = cols.length;
+  const { y, wt, rows } = nq;
+  const A = new Float64Array(m * m), b = new Float64Array(m);
+  for (let a = 0; a < m; a++) { b[a] = crossY(nq, cols[a]!); for (let c = 0; c < m; c++) A[a * m + c] = cross(nq, cols[a]!, cols[c]!); }
   // Cholesky-free small solve by Gaussian elimination with a tiny ridge
   for (let a = 0; a < m; a++) A[a * m + a] += 1e-12 * (A[a * m + a]! + 1e-300);
   const varDiag = new Float64Array(m).fill(NaN);
   if (withVar) for (let e = 0; e < m; e++) varDiag[e] = solveSmall(A, Float64Array.from({ length: m }, (_, i) => (i === e ? 1 : 0)), m)[e]!;
   const c = solveSmall(A, b, m);
   let rss = 0;
-  for (let i = 0; i < n; i++) {
-    if (!Number.isFinite(y[i]!) || !(wt[i]! > 0)) continue;
+  for (let q = 0; q < rows.length; q++) {
+    const i = rows[q]!;
     let v = 0;
     for (let a = 0; a < m; a++) v += c[a]! * cols[a]![i]!;
     rss += wt[i]! * (y[i]! - v) ** 2;
@@ -355,7 +397,8 @@ function hat(t: number): number { return Math.max(0, 1 - Math.abs(t)); }
  * (the shape of the transition is not known), so only the ramp's size measures the change.
  */
 function basis(model: ModelName, x: Float64Array, taus: number[], blur: number, lo: number, hi: number): Float64Array[] {
-  const one = new Float64Array(x.length).fill(1);
+  let one = oneCache.get(x);
+  if (!one) { one = new Float64Array(x.length).fill(1); oneCache.set(x, one); }
   if (model === 'constant') return [one];
   if (model === 'trend') {
     const t = Float64Array.from(x, (v) => (2 * (v - lo)) / (hi - lo) - 1);
@@ -364,14 +407,17 @@ function basis(model: ModelName, x: Float64Array, taus: number[], blur: number, 
   return [one, ...taus.flatMap((tau) => stepColumns(x, tau, blur))];
 }
 
-// ramp and hat columns per (centres, change, blur): the searches ask for the same ones often
-const stepCache = new WeakMap<Float64Array, Map<string, [Float64Array, Float64Array]>>();
+// ramp and hat columns per (centres, blur, change): the searches ask for the same ones often (shared,
+// read-only arrays; their identity keys the cross products of `Normals`)
+const stepCache = new WeakMap<Float64Array, Map<number, Map<number, [Float64Array, Float64Array]>>>();
+const oneCache = new WeakMap<Float64Array, Float64Array>();
 function stepColumns(x: Float64Array, tau: number, blur: number): [Float64Array, Float64Array] {
-  let m = stepCache.get(x);
-  if (!m) { m = new Map(); stepCache.set(x, m); }
-  const key = `${tau}|${blur}`;
-  let c = m.get(key);
-  if (!c) { c = [Float64Array.from(x, (v) => ramp((v - tau) / blur)), Float64Array.from(x, (v) => hat((v - tau) / blur))]; m.set(key, c); }
+  let byBlur = stepCache.get(x);
+  if (!byBlur) { byBlur = new Map(); stepCache.set(x, byBlur); }
+  let m = byBlur.get(blur);
+  if (!m) { m = new Map(); byBlur.set(blur, m); }
+  let c = m.get(tau);
+  if (!c) { c = [Float64Array.from(x, (v) => ramp((v - tau) / blur)), Float64Array.from(x, (v) => hat((v - tau) / blur))]; m.set(tau, c); }
   return c;
 }
 
@@ -396,7 +442,8 @@ export function compareModels(p: Profiles, sd: Record<string, Float64Array>, nam
     wts[nm] = Float64Array.from(y, (yy, k) => (Number.isFinite(yy) ? 1 / ((sv && Number.isFinite(sv[k]!) ? sv[k]! ** 2 : NaN) + floor) : 0));
     for (let k = 0; k < y.length; k++) if (!Number.isFinite(wts[nm]![k]!)) wts[nm]![k] = v2.length ? 0 : 1;
   }
-  const fitOf = (model: ModelName, taus: number[]) => names.map((nm) => lsq(basis(model, x, taus, p.blur[nm]!, lo, hi), p.features[nm]!, wts[nm]!));
+  const nqs = names.map((nm) => normals(p.features[nm]!, wts[nm]!));
+  const fitOf = (model: ModelName, taus: number[]) => names.map((nm, i) => lsq(basis(model, x, taus, p.blur[nm]!, lo, hi), nqs[i]!));
   const rssOf = (model: ModelName, taus: number[]) => fitOf(model, taus).map((r) => r.rss);
   const fits: { model: ModelName; taus: number[]; rss: number[] }[] = [];
   fits.push({ model: 'constant', taus: [], rss: rssOf('constant', []) });
@@ -449,7 +496,7 @@ export function compareModels(p: Profiles, sd: Record<string, Float64Array>, nam
       chi += (f.rss[i]! / sigma2[i]!) * (nEff / Math.max(n, 1));
     });
     const k = ks[f.model] * names.length + extra[f.model];
-    const co = f.taus.length ? names.map((nm) => lsq(basis(f.model, x, f.taus, p.blur[nm]!, lo, hi), p.features[nm]!, wts[nm]!, true)) : [];
+    const co = f.taus.length ? names.map((nm, i) => lsq(basis(f.model, x, f.taus, p.blur[nm]!, lo, hi), nqs[i]!, true)) : [];
     const steps = f.taus.map((_, t) => co.map((c) => c.coef[1 + 2 * t]!));
     const stepSe = f.taus.map((_, t) => co.map((c, i) => {
       const n = Array.from(wts[names[i]!]!).filter((w) => w > 0).length;

@@ -98,24 +98,65 @@ export function locateDriftChange(G: Mat, x: Float64Array, t0: number, r: number
   const n = x.length;
   const idx: number[] = [];
   for (let i = 0; i < n; i++) if (Math.abs(x[i]! - t0) <= R) idx.push(i);
-  const pairs: [number, number, number, number][] = []; // xi, xj, r, weight
   let gmax = 0;
   for (const i of idx) for (const j of idx) gmax = Math.max(gmax, Math.abs(G.data[i * G.cols + j]!));
+  // the pairs (x_i, x_j, weight, weighted log ratio) in flat arrays
+  const cap = idx.length * idx.length;
+  const pxi = new Float64Array(cap), pxj = new Float64Array(cap), pw = new Float64Array(cap), py = new Float64Array(cap);
+  let np = 0;
   for (const i of idx) for (const j of idx) {
     if (x[i]! - x[j]! < dmin) continue;
     const a = G.data[i * G.cols + j]!, b = G.data[j * G.cols + i]!;
     if (!(a * b > 0) || Math.min(Math.abs(a), Math.abs(b)) < 1e-6 * gmax) continue;
-    pairs.push([x[i]!, x[j]!, Math.log(a / b), Math.min(Math.abs(a), Math.abs(b))]);
+    const w = Math.min(Math.abs(a), Math.abs(b));
+    pxi[np] = x[i]!; pxj[np] = x[j]!; pw[np] = w; py[np] = w * Math.log(a / b); np++;
   }
-  if (pairs.length < 12) return null;
+  if (np < 12) return null;
   const taus: number[] = [], rss: number[] = [];
   for (const i of idx) {
     const t = x[i]!;
     if (Math.abs(t - t0) > r) continue;
-    const rows = pairs.map(([xi, xj, , w]) => [w * (Math.min(xi, t) - Math.min(xj, t)), w * (Math.max(xi, t) - Math.max(xj, t))]);
-    taus.push(t); rss.push(lsRss(rows, pairs.map(([, , v, w]) => w * v)));
+    taus.push(t); rss.push(hingeRss(pxi, pxj, pw, py, np, t));
   }
-  return profileInterval(taus, rss, pairs.length - 3);
+  return profileInterval(taus, rss, np - 3);
+}
+
+/**
+ * `lsRss` of the two-slope model at τ = t (rows w·(min(x_i, t) − min(x_j, t)), w·(max(x_i, t) − max(x_j, t)),
+ * values w·r) without forming the rows: the same normal equations, ridge, elimination and residual, term by term.
+ */
+function hingeRss(pxi: Float64Array, pxj: Float64Array, pw: Float64Array, py: Float64Array, np: number, t: number): number {
+  let a00 = 0, a01 = 0, a11 = 0, b0 = 0, b1 = 0;
+  for (let q = 0; q < np; q++) {
+    const w = pw[q]!, xi = pxi[q]!, xj = pxj[q]!, y = py[q]!;
+    const r0 = w * (Math.min(xi, t) - Math.min(xj, t)), r1 = w * (Math.max(xi, t) - Math.max(xj, t));
+    b0 += r0 * y; a00 += r0 * r0; a01 += r0 * r1;
+    b1 += r1 * y; a11 += r1 * r1;
+  }
+  a00 += 1e-12 * (a00 + 1e-300);
+  a11 += 1e-12 * (a11 + 1e-300);
+  const c = solve2(a00, a01, a01, a11, b0, b1);
+  const c0 = c[0]!, c1 = c[1]!;
+  let rss = 0;
+  for (let q = 0; q < np; q++) {
+    const w = pw[q]!, xi = pxi[q]!, xj = pxj[q]!;
+    const r0 = w * (Math.min(xi, t) - Math.min(xj, t)), r1 = w * (Math.max(xi, t) - Math.max(xj, t));
+    let v = 0;
+    v += r0 * c0; v += r1 * c1;
+    rss += (py[q]! - v) ** 2;
+  }
+  return rss;
+}
+
+const coef2 = new Float64Array(2);
+/** `lsRss`'s Gaussian elimination with partial pivoting for p = 2, step by step (the result in a shared buffer). */
+function solve2(m00: number, m01: number, m10: number, m11: number, r0: number, r1: number): Float64Array {
+  if (Math.abs(m10) > Math.abs(m00)) { let t = m00; m00 = m10; m10 = t; t = m01; m01 = m11; m11 = t; t = r0; r0 = r1; r1 = t; }
+  if (Math.abs(m00) > 1e-300) { const f = m10 / m00; m10 -= f * m00; m11 -= f * m01; r1 -= f * r0; }
+  const c1 = m11 ? r1 / m11 : 0;
+  const c0 = m00 ? (r0 - m01 * c1) / m00 : 0;
+  coef2[0] = c0; coef2[1] = c1;
+  return coef2;
 }
 
 /**

@@ -1,9 +1,0 @@
-declare module 'svg-to-pdfkit' {
-  interface SvgToPdfOptions {
-    width?: number; height?: number; preserveAspectRatio?: string; assumePt?: boolean;
-    fontCallback?: (family: string, bold: boolean, italic: boolean, opts: unknown) => string;
-    warningCallback?: (msg: string) => void;
-  }
-  function SVGtoPDF(doc: PDFKit.PDFDocument, svg: string, x: number, y: number, options?: SvgToPdfOptions): void;
-  export default SVGtoPDF;
-}
