@@ -18,7 +18,8 @@ import { readKernel, isKernelDir } from '../io/kernel.js';
 import { withOutput, sha256File } from '../io/output.js';
 import { Progress, processIo } from '../cli/common.js';
 import { buildModel, type DossierModel } from './model.js';
-import { renderSvg } from './vega.js';
+import { renderChart, type RenderedChart } from './vega.js';
+import { heatRaster, rasterises, withRaster, type HeatRaster } from './raster.js';
 import { renderHtml } from './html.js';
 import { renderPdf } from './pdf.js';
 
@@ -129,16 +130,28 @@ function studyFromAudit(F: Findings): Record<string, unknown> | null {
   return null;
 }
 
-/** Render the model's figures to SVG (and the frames of heat maps for the PDF). */
-export async function renderFigures(model: DossierModel): Promise<{ svg: Map<string, string>; frame: Map<string, string> }> {
-  const svg = new Map<string, string>(), frame = new Map<string, string>();
+/** A figure as the PDF draws it: the chart's scenegraph, and the raster of a heat map's cells (drawn under its frame). */
+export interface PdfFigure { chart: RenderedChart; raster: HeatRaster | null }
+
+/**
+ * Render the model's figures once each, shared by both documents: the SVG for the HTML and the
+ * scenegraph for the PDF. A heat map without cell text is rendered as its frame (axes, legend,
+ * border) plus one raster of its cells (src/report/raster.ts), in both documents.
+ */
+export async function renderFigures(model: DossierModel): Promise<{ svg: Map<string, string>; pdf: Map<string, PdfFigure> }> {
+  const svg = new Map<string, string>(), pdf = new Map<string, PdfFigure>();
   for (const f of model.figures) {
-    if (f.chart.kind === 'heat') {
-      svg.set(f.id, await renderSvg(f.chart.heat.spec, f.id));
-      frame.set(f.id, await renderSvg(f.chart.heat.frame, `${f.id}-frame`));
-    } else svg.set(f.id, await renderSvg(f.chart.spec, f.id));
+    if (f.chart.kind === 'heat' && rasterises(f.chart.heat)) {
+      const chart = await renderChart(f.chart.heat.frame, f.id), raster = heatRaster(f.chart.heat);
+      svg.set(f.id, withRaster(chart.svg, raster));
+      pdf.set(f.id, { chart, raster });
+    } else {
+      const chart = await renderChart(f.chart.kind === 'heat' ? f.chart.heat.spec : f.chart.spec, f.id);
+      svg.set(f.id, chart.svg);
+      pdf.set(f.id, { chart, raster: null });
+    }
   }
-  return { svg, frame };
+  return { svg, pdf };
 }
 
 /** The dossier's two documents in memory (no file system). */
@@ -147,7 +160,7 @@ export async function renderDossier(findings: Findings, kernel: Kernel | null, f
   const model = buildModel({ findings, kernel, dossierInputs: files, rebuild: opts.rebuild, generated: opts.generated, homogeneousError: opts.homogeneousError ?? null });
   const svgs = await renderFigures(model);
   const html = renderHtml(model, svgs.svg);
-  const pdf = await renderPdf(model, svgs);
+  const pdf = await renderPdf(model, svgs.pdf);
   return { html, pdf, model };
 }
 

@@ -1,17 +1,16 @@
 /**
  * The PDF dossier (pdfkit): the same model, sections and figures as the HTML, with DejaVu fonts
  * embedded (they carry ′ ∂ κ ≈ ± ² Δ, which the built-in Helvetica garbles), a table of
- * contents with page numbers and links, bookmarks, and page numbers in the footer. x–y charts
- * are drawn from their SVG (svg-to-pdfkit); heat maps draw their cells natively with rect
- * fills (much faster than going through SVG) under the chart's frame.
+ * contents with page numbers and links, bookmarks, and page numbers in the footer. Charts are
+ * drawn from the scenegraph vega laid out for the HTML (src/report/pdfdraw.ts); a heat map's
+ * cells are the same raster image the HTML shows, placed under the chart's frame.
  */
 import PDFDocument from 'pdfkit';
-import SVGtoPDF from 'svg-to-pdfkit';
 import { createRequire } from 'node:module';
 import { dirname, join } from 'node:path';
 import type { DossierModel, FigureRef } from './model.js';
-import { rampColor, DIVERGING } from './palette.js';
-import { cellTextOnDark } from './charts.js';
+import type { PdfFigure } from './index.js';
+import { drawChart } from './pdfdraw.js';
 
 const require = createRequire(import.meta.url);
 const FONT_DIR = join(dirname(require.resolve('dejavu-fonts-ttf/package.json')), 'ttf');
@@ -21,9 +20,8 @@ const M = { left: 56, right: 56, top: 56, bottom: 64 };
 const CW = A4.w - M.left - M.right;
 const C = { ink: '#22262b', muted: '#6a6f76', pine: '#1f5a4c', rust: '#b5542d', rule: '#d9d3c4', sand: '#f1ece0' };
 
-export interface PdfFigureSvgs { svg: Map<string, string>; frame: Map<string, string> }
-
-export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buffer> {
+/** `charts` maps figure id → its rendered chart (renderFigures in src/report/index.ts). */
+export function renderPdf(model: DossierModel, charts: Map<string, PdfFigure>): Promise<Buffer> {
   const when = new Date(model.generated);
   const doc = new PDFDocument({
     size: 'A4', margins: M, bufferPages: true, autoFirstPage: true,
@@ -37,7 +35,7 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
   doc.registerFont('body', join(FONT_DIR, 'DejaVuSans.ttf'));
   doc.registerFont('bold', join(FONT_DIR, 'DejaVuSans-Bold.ttf'));
   doc.registerFont('mono', join(FONT_DIR, 'DejaVuSansMono.ttf'));
-  const fontCallback = (_family: string, bold: boolean) => (bold ? 'bold' : 'body');
+  const fonts = { regular: 'body', bold: 'bold' };
 
   const pageOf = new Map<string, number>();
   let pageNo = 0;
@@ -96,13 +94,7 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
     doc.moveDown(0.5);
   };
 
-  // svg-to-pdfkit draws at the SVG's own size; scale it ourselves so PDF cells and axes agree
-  const drawSvg = (svg: string, x: number, y: number, sc: number) => {
-    doc.save();
-    doc.translate(x, y).scale(sc);
-    SVGtoPDF(doc, svg, 0, 0, { fontCallback, assumePt: true });
-    doc.restore();
-  };
+  // charts are drawn at their own size (1 px = 1 pt); scale them so the raster and the axes agree
   const figure = (f: FigureRef, copy = false) => {
     const sc = Math.min(1, CW / f.chart.width, 330 / f.chart.height);
     const w = f.chart.width * sc, h = f.chart.height * sc;
@@ -112,26 +104,18 @@ export function renderPdf(model: DossierModel, svgs: PdfFigureSvgs): Promise<Buf
     ensure(h + capH + 12);
     const x = M.left + (CW - w) / 2, y = doc.y;
     if (!copy) mark(f.id);
-    if (f.chart.kind === 'heat') {
-      const frame = svgs.frame.get(f.id);
-      if (frame) drawSvg(frame, x, y, sc);
-      const H = f.chart.heat;
-      const [x0, x1] = H.xDomain, [y0, y1] = H.yDomain, [c0, c1] = H.colorDomain;
-      const px = (v: number) => x + (H.plot.x + ((v - x0) / (x1 - x0)) * H.plot.width) * sc;
-      const py = (v: number) => y + (H.plot.y + H.plot.height - ((v - y0) / (y1 - y0)) * H.plot.height) * sc;
-      for (const c of H.cells) {
-        const rgb = Number.isFinite(c.v) ? rampColor(H.stops, (c.v - c0) / (c1 - c0)) : [255, 255, 255] as [number, number, number];
-        const ax = px(c.x0), bx = px(c.x1), ay = py(c.y1), by = py(c.y0);
-        // a hair of overlap hides seams between cells in PDF viewers
-        doc.rect(Math.min(ax, bx), Math.min(ay, by), Math.abs(bx - ax) + 0.15, Math.abs(by - ay) + 0.15).fill(rgb);
-        const ink = cellTextOnDark(c.v, H.colorDomain, H.stops === DIVERGING) ? '#ffffff' : C.ink;
-        if (c.t) doc.font('body').fontSize(9).fillColor(ink).text(c.t, Math.min(ax, bx), (ay + by) / 2 - (c.t2 ? 9 : 5), { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
-        if (c.t2) doc.font('body').fontSize(6.5).fillColor(ink).text(c.t2, Math.min(ax, bx), (ay + by) / 2 + 3, { width: Math.abs(bx - ax), align: 'center', lineBreak: false });
+    const drawn = charts.get(f.id);
+    if (drawn) {
+      doc.save();
+      doc.translate(x, y).scale(sc);
+      drawChart(doc, drawn.chart, fonts);
+      const r = drawn.raster;
+      if (r) {
+        doc.image(r.png, r.plot.x, r.plot.y, { width: r.plot.width, height: r.plot.height });
+        doc.rect(r.plot.x, r.plot.y, r.plot.width, r.plot.height).lineWidth(0.5 / sc).strokeColor(C.muted).stroke();
       }
-      doc.rect(x + H.plot.x * sc, y + H.plot.y * sc, H.plot.width * sc, H.plot.height * sc).lineWidth(0.5).strokeColor(C.muted).stroke();
-    } else {
-      const svg = svgs.svg.get(f.id);
-      if (svg) drawSvg(svg, x, y, sc);
+      doc.restore();
+      doc.x = M.left; doc.y = y;
     }
     doc.font('body').fontSize(8.5).fillColor(C.muted).text(capText, M.left, y + h + 4, { width: CW });
     doc.x = M.left;

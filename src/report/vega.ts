@@ -1,17 +1,37 @@
 /**
- * Vega specs rendered to SVG on the server side (renderer 'none' + toSVG: no canvas, no
- * browser). The SVG is made by this program from numbers only, so it may be inlined.
+ * Vega specs rendered on the server side (renderer 'none' + toSVG: no canvas, no browser). The
+ * SVG is made by this program from numbers only, so it may be inlined. The same view's
+ * scenegraph is kept for the PDF, which draws it directly (src/report/pdfdraw.ts) instead of
+ * parsing the SVG back.
  */
 import * as vega from 'vega';
 
-export async function renderSvg(spec: vega.Spec, idPrefix = 'fig'): Promise<string> {
+/** A rendered chart: its SVG (HTML) and its scenegraph (PDF). */
+export interface RenderedChart {
+  svg: string;
+  /** the scenegraph root (a group mark) as vega laid it out */
+  scene: unknown;
+  /** chart size and the padding offset of the root group, in chart units (px = pt) */
+  width: number; height: number; origin: [number, number];
+  background: string | null;
+}
+
+export async function renderChart(spec: vega.Spec, idPrefix = 'fig'): Promise<RenderedChart> {
   const view = new vega.View(vega.parse(spec), { renderer: 'none', logLevel: vega.Error });
   try {
-    const svg = await view.toSVG();
-    return renumberClips(svg, idPrefix);
+    const svg = renumberClips(await view.toSVG(), idPrefix);
+    const pad = view.padding() as { left?: number; top?: number };
+    const bg = view.background() as unknown;
+    return { svg, scene: (view.scenegraph() as unknown as { root: unknown }).root, width: view.width() + (pad.left ?? 0) + ((view.padding() as { right?: number }).right ?? 0),
+      height: view.height() + (pad.top ?? 0) + ((view.padding() as { bottom?: number }).bottom ?? 0), origin: [pad.left ?? 0, pad.top ?? 0],
+      background: typeof bg === 'string' ? bg : null };
   } finally {
     view.finalize();
   }
+}
+
+export async function renderSvg(spec: vega.Spec, idPrefix = 'fig'): Promise<string> {
+  return (await renderChart(spec, idPrefix)).svg;
 }
 
 /**
