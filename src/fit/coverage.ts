@@ -22,9 +22,20 @@ export interface Coverage {
   energy_outside_model: boolean;
 }
 
-export function coverage(prep: Prepared, G: Mat, sigma: number, extrapolate: boolean): Coverage {
+/** The forcings' input directions: S, its column weights √w, the unexcited count and the eigen-decomposition of S Sᵀ. */
+interface InputDirections { sw: Float64Array; S: Mat; unexcited: number; e: { values: Float64Array | number[]; vectors: Mat } }
+
+/**
+ * The directions of the last forcings seen, kept for the next fit of the same experiments (a pipeline fits one
+ * study several times): reused only when the weighted forcings and the weights are equal entry for entry.
+ */
+let lastDirections: { FW: Float64Array; weights: Float64Array; N: number; n: number; value: InputDirections } | null = null;
+
+function inputDirections(prep: Prepared): InputDirections {
   const { N, nIn, cIn } = prep;
   const n = nIn * cIn;
+  const hit = lastDirections;
+  if (hit && hit.N === N && hit.n === n && sameEntries(hit.FW, prep.FW.data) && sameEntries(hit.weights, prep.weights)) return hit.value;
   const sw = new Float64Array(n);
   for (let q = 0; q < cIn; q++) for (let k = 0; k < nIn; k++) sw[q * nIn + k] = Math.sqrt(prep.weights[k]!);
   // S = F̃ W^{1/2}: FW holds f·w, so divide by sqrt(w)
@@ -45,6 +56,21 @@ export function coverage(prep: Prepared, G: Mat, sigma: number, extrapolate: boo
   // S Sᵀ = U diag(s²) Uᵀ, v_m = Sᵀ u_m / s_m
   const SSt = matmulNT(S, S);
   const e = symmetricEigen(SSt) ?? eigSym(SSt);
+  const value = { sw, S, unexcited, e };
+  lastDirections = { FW: Float64Array.from(prep.FW.data), weights: Float64Array.from(prep.weights), N, n, value };
+  return value;
+}
+
+function sameEntries(a: ArrayLike<number>, b: ArrayLike<number>): boolean {
+  if (a.length !== b.length) return false;
+  for (let i = 0; i < a.length; i++) if (a[i] !== b[i]) return false;
+  return true;
+}
+
+export function coverage(prep: Prepared, G: Mat, sigma: number, extrapolate: boolean): Coverage {
+  const { N, nIn, cIn } = prep;
+  const n = nIn * cIn;
+  const { sw, S, unexcited, e } = inputDirections(prep);
   const top = Math.max(e.values[0]!, 1e-300);
   const rows = G.rows;
   // GW^{1/2}
