@@ -23,7 +23,7 @@ const CRC_TABLE = (() => {
 })();
 
 // CRC-32 as the PNG specification defines it: ISO/IEC 15948 (W3C PNG, 2nd ed.), annex D
-function crc32(buf: Uint8Array): number {
+export function crc32(buf: Uint8Array): number {
   let c = 0xffffffff;
   for (let i = 0; i < buf.length; i++) c = CRC_TABLE[(c ^ buf[i]!) & 0xff]! ^ (c >>> 8);
   return (c ^ 0xffffffff) >>> 0;
