@@ -18,7 +18,7 @@ import {
   symmetricMap, unconstrainedMap, embedTheta, legendreKinkBasis, truncateBasis, oscillatoryKinkBasis, kinkCandidates,
   piecewiseKinkBasis, piecewiseCandidates,
 } from './kink1d.js';
-import { RidgeSolver, type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, gcvAt, semidefiniteCholesky } from './spectral.js';
+import { RidgeSolver, type NormalSystem, type RidgeSpectrum, ridgeSpectrum, gcvMinimise, gcvAt, semidefiniteCholesky, ridgeAt } from './spectral.js';
 export { semidefiniteCholesky } from './spectral.js';
 import { fitPathTranslation } from './translation1d.js';
 import { type CoreFit, scalingTest, responseSize, rankCorrelation } from './core.js';
@@ -370,11 +370,11 @@ export function searchPath1d(prep: Prepared, sets: number[][], o: Path1dOptions)
       const sys = assembleFull(st, prep, p, Kf);
       const map = constraint === 'symmetric' ? symmetricMap(Kf, fx.K) : unconstrainedMap(Kf, prep.cIn, fx.K);
       const red = reduceSystem(sys, penaltyWeights(Kf, prep.cIn, fx.order, fx.jump, b.degree), map);
-      const sp = ridgeSpectrum(red.sys, red.P, true);
-      const g = gcvAt(sp, fx.lambda);
+      // one λ: a Cholesky solve and the trace of the inverse, no spectrum
+      const { solver, eta, point: g } = ridgeAt(red.sys, red.P, fx.lambda);
       const choice: KinkChoice = { K: fx.K, order: fx.order, jump: fx.jump, gcv: g, tried: [{ K: fx.K, order: fx.order, gcv: g.gcv, lambda: fx.lambda, dof: g.dof }] };
       systems.push(sys); choices.push(choice);
-      fits.push(solveKink(sys, Kf, prep.cIn, choice, constraint, b.degree, sp));
+      fits.push({ K: fx.K, order: fx.order, jump: fx.jump, lambda: fx.lambda, constraint, map, solverOf: () => solver, eta, theta: expand(map, eta, sys.r.length), gcv: g });
       searches.push(startKinkSearch(sys, Kf, prep.cIn, constraint, fx.order, b.degree, []));
     }
     return { basis: b, setup: st, searches, systems, fits, choices, score: choices.reduce((acc, c, p) => acc + c.gcv.gcv * systems[p]!.nObs, 0) };

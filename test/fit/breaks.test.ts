@@ -81,7 +81,9 @@ describe('fit with bases broken at interfaces', () => {
     const fixed = { K: h.basis_size!, order: h.penalty_order!, jump: h.jump_penalty_factor!, lambda: h.lambda! };
     const same = fitStudy(study, { seed: 6, breaks: [c], trial: true, fixed });
     expect(relativeError(same.kernel.G, full.kernel.G)).toBeLessThan(1e-8);
-    expect(same.report.hyperparameters.effective_parameters).toBeCloseTo(h.effective_parameters!, 6);
+    // the fixed fit's dof is p − λ·tr(P (M + λP)⁻¹) from a Cholesky factor, the searched fit's Σ μ/(μ + λ) from the
+    // spectrum: the subtraction (here 450 − 426) loses a few digits, so they agree to about 1e-6 relative, not to ε
+    expect(Math.abs(Number(same.report.hyperparameters.effective_parameters) - h.effective_parameters!) / h.effective_parameters!).toBeLessThan(1e-6);
     // moved by two grid cells at the same hyper-parameters: a different, nearby kernel
     const moved = fitStudy(study, { seed: 6, breaks: [c + 0.01], trial: true, fixed });
     const d = relativeError(moved.kernel.G, full.kernel.G);

@@ -7,7 +7,7 @@
  */
 import { describe, it, expect } from 'vitest';
 import { readFileSync } from 'node:fs';
-import { eigenCoordinates, semidefiniteCholesky } from '../../src/fit/spectral.js';
+import { eigenCoordinates, semidefiniteCholesky, ridgeAt, ridgeSpectrum, gcvAt } from '../../src/fit/spectral.js';
 import { unpenalisedResidual } from '../../src/fit/kink1d.js';
 import { Rng } from '../../src/linalg/rng.js';
 
@@ -68,6 +68,29 @@ describe('Householder reduction with a step that has nothing to reflect', () => 
     const { values } = eigenCoordinates({ rows: m, cols: m, data: B }, Float64Array.from({ length: m }, (_, i) => Math.sin(i + 1)));
     const exact = [5, ...Array.from({ length: n }, (_, k) => 2 - 2 * Math.cos(((k + 1) * Math.PI) / (n + 1)))].sort((a, b) => a - b);
     Array.from(values).sort((a, b) => a - b).forEach((g, k) => expect(Math.abs(g - exact[k]!)).toBeLessThan(1e-12));
+  });
+});
+
+describe('ridge at one λ without a spectrum (ridgeAt)', () => {
+  it('rss, dof and GCV equal the spectral formulas (gcvAt), the solution solves (M + λP) η = r', () => {
+    const { A } = hidden();
+    // M = A² (positive definite), a graded diagonal penalty, y with yᵀy above the fitted part
+    const M = new Float64Array(n * n);
+    for (let i = 0; i < n; i++) for (let j = 0; j < n; j++) { let t = 0; for (let k = 0; k < n; k++) t += A[i * n + k]! * A[k * n + j]!; M[i * n + j] = t; }
+    const P = Float64Array.from({ length: n }, (_, i) => 1 + i * i);
+    const r = Float64Array.from({ length: n }, (_, i) => Math.cos(i));
+    const sys = { M: { rows: n, cols: n, data: M }, r, yy: 50, nObs: 40 };
+    for (const lambda of [1e-3, 0.1, 3]) {
+      const a = ridgeAt(sys, P, lambda), b = gcvAt(ridgeSpectrum(sys, P), lambda);
+      expect(Math.abs(a.point.rss - b.rss) / b.rss).toBeLessThan(1e-10);
+      expect(Math.abs(a.point.dof - b.dof)).toBeLessThan(1e-10 * n);
+      expect(Math.abs(a.point.gcv - b.gcv) / b.gcv).toBeLessThan(1e-10);
+      for (let i = 0; i < n; i++) {
+        let t = lambda * P[i]! * a.eta[i]!;
+        for (let j = 0; j < n; j++) t += M[i * n + j]! * a.eta[j]!;
+        expect(Math.abs(t - r[i]!)).toBeLessThan(1e-10);
+      }
+    }
   });
 });
 
