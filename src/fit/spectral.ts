@@ -446,22 +446,26 @@ export class RidgeSolver {
   solveVec(r: Float64Array): Float64Array {
     return this.solve({ rows: r.length, cols: 1, data: r }).data;
   }
-  /** diag((M + λP)⁻¹) = the squared column norms of L⁻¹ (L⁻¹ by forward substitution, n³/6 multiply-adds) */
+  /** diag((M + λP)⁻¹) = the squared column norms of L⁻¹ (each column by forward substitution, n³/6 multiply-adds) */
   inverseDiagonal(): Float64Array {
-    const n = this.L.rows, l = this.L.data, X = new Float64Array(n * n), out = new Float64Array(n);
-    // row i of L⁻¹ (lower triangular): X[i][j] = (δ_ij − Σ_{k=j}^{i−1} L[i][k] X[k][j]) / L[i][i]
-    for (let i = 0; i < n; i++) {
-      const io = i * n, inv = 1 / l[io + i]!;
-      for (let j = 0; j < i; j++) {
-        let acc = 0;
-        for (let k = j; k < i; k++) acc += l[io + k]! * X[k * n + j]!;
-        X[io + j] = -acc * inv;
-      }
-      X[io + i] = inv;
-    }
-    for (let i = 0; i < n; i++) for (let j = 0; j <= i; j++) out[j] += X[i * n + j]! * X[i * n + j]!;
+    const n = this.L.rows, l = this.L.data, x = new Float64Array(n), out = new Float64Array(n);
+    for (let j = 0; j < n; j++) out[j] = inverseColumnNorm(l, n, j, x);
     return out;
   }
+}
+
+/** ‖L⁻¹ e_j‖² for lower-triangular L (row-major): x_i = (δ_ij − Σ_{k=j}^{i−1} L_ik x_k) / L_ii for i ≥ j */
+function inverseColumnNorm(l: Float64Array, n: number, j: number, x: Float64Array): number {
+  x[j] = 1 / l[j * n + j]!;
+  let ss = x[j]! * x[j]!;
+  for (let i = j + 1; i < n; i++) {
+    const io = i * n;
+    let acc = 0;
+    for (let k = j; k < i; k++) acc += l[io + k]! * x[k]!;
+    x[i] = -acc / l[io + i]!;
+    ss += x[i]! * x[i]!;
+  }
+  return ss;
 }
 
 /**
