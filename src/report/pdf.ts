@@ -7,6 +7,7 @@
  */
 import PDFDocument from 'pdfkit';
 import { createRequire } from 'node:module';
+import { readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import type { DossierModel, FigureRef } from './model.js';
 import type { PdfFigure } from './index.js';
@@ -14,6 +15,32 @@ import { drawChart } from './pdfdraw.js';
 
 const require = createRequire(import.meta.url);
 const FONT_DIR = join(dirname(require.resolve('dejavu-fonts-ttf/package.json')), 'ttf');
+
+const FONT_FILES = [['body', 'DejaVuSans.ttf'], ['bold', 'DejaVuSans-Bold.ttf'], ['mono', 'DejaVuSansMono.ttf']] as const;
+const fontCache = new Map<string, Buffer>();
+function fontBytes(file: string): Buffer {
+  let b = fontCache.get(file);
+  if (!b) { b = readFileSync(join(FONT_DIR, file)); fontCache.set(file, b); }
+  return b;
+}
+
+/**
+ * pdfkit shapes every word of a text once per document and font (EmbeddedFont.layoutCache);
+ * a second dossier in the same process would shape the same words again. The shaped runs
+ * depend on the font file alone (glyph ids, advances, code points), so one cache a font is
+ * shared by every document; it is dropped when it grows past LAYOUT_CACHE_MAX words. When
+ * pdfkit's font has no such cache (another pdfkit version), nothing is shared.
+ */
+const LAYOUT_CACHE_MAX = 50_000;
+const layoutCaches = new Map<string, Record<string, unknown>>();
+function shareLayouts(doc: PDFKit.PDFDocument, name: string): void {
+  doc.font(name);
+  const f = (doc as unknown as { _font?: { layoutCache?: unknown } })._font;
+  if (!f || !f.layoutCache || typeof f.layoutCache !== 'object') return;
+  let c = layoutCaches.get(name);
+  if (!c || Object.keys(c).length > LAYOUT_CACHE_MAX) { c = f.layoutCache as Record<string, unknown>; layoutCaches.set(name, c); }
+  f.layoutCache = c;
+}
 
 const A4 = { w: 595.28, h: 841.89 };
 const M = { left: 56, right: 56, top: 56, bottom: 64 };
@@ -32,9 +59,10 @@ export function renderPdf(model: DossierModel, charts: Map<string, PdfFigure>): 
   doc.on('data', (b: Buffer) => chunks.push(b));
   const done = new Promise<Buffer>((res, rej) => { doc.on('end', () => res(Buffer.concat(chunks))); doc.on('error', rej); });
 
-  doc.registerFont('body', join(FONT_DIR, 'DejaVuSans.ttf'));
-  doc.registerFont('bold', join(FONT_DIR, 'DejaVuSans-Bold.ttf'));
-  doc.registerFont('mono', join(FONT_DIR, 'DejaVuSansMono.ttf'));
+  for (const [name, file] of FONT_FILES) {
+    doc.registerFont(name, fontBytes(file));
+    shareLayouts(doc, name);
+  }
   const fonts = { regular: 'body', bold: 'bold' };
 
   const pageOf = new Map<string, number>();
