@@ -189,17 +189,20 @@ const toTheta = (ks: number) => Math.sign(ks) * ks * ks;
 function refine(pr: Prep, p0: number, ks0: number, dp0: number, dk0: number, maxIt: number): { p: number; ks: number; f: number } {
   let p = p0, ks = ks0, f = objective(pr, p, toTheta(ks));
   let dp = dp0, dk = dk0;
-  // trial points already known not to improve (the centre, the previous centre, repeats when dp = 0)
-  // are skipped: the objective is deterministic, so the search path is the same with fewer evaluations
+  // trial points already evaluated are skipped: the objective is deterministic and f is the least value
+  // seen, so none of them can improve on it (the last RING points are remembered, the centre included);
+  // the search path is the same with fewer evaluations; the centre and the previous centre are always skipped
   let prevP = NaN, prevKs = NaN;
-  const triedP = new Float64Array(8), triedK = new Float64Array(8);
+  const ringP = new Float64Array(RING), ringK = new Float64Array(RING);
+  ringP[0] = p; ringK[0] = ks;
+  let stored = 1;
   for (let it = 0; it < maxIt && (dp > 1e-7 * (1 + Math.abs(p)) || dk > 1e-7 * (1 + Math.abs(ks))); it++) {
-    let moved = false, tried = 0;
+    let moved = false;
     for (let q = 0; q < 8; q++) {
       const cp = DIR_P[q]! * dp, ck = DIR_K[q]! * dk;
       const pt = p + cp, kt = ks + ck;
-      if ((pt === p && kt === ks) || (pt === prevP && kt === prevKs) || seen(triedP, triedK, tried, pt, kt)) continue;
-      triedP[tried] = pt; triedK[tried] = kt; tried++;
+      if ((pt === p && kt === ks) || (pt === prevP && kt === prevKs) || seen(ringP, ringK, Math.min(stored, RING), pt, kt)) continue;
+      ringP[stored % RING] = pt; ringK[stored % RING] = kt; stored++;
       const fn = objective(pr, pt, toTheta(kt));
       if (fn < f) { f = fn; prevP = p; prevKs = ks; p = pt; ks = kt; moved = true; break; }
     }
@@ -207,6 +210,9 @@ function refine(pr: Prep, p0: number, ks0: number, dp0: number, dk0: number, max
   }
   return { p, ks, f };
 }
+
+/** Points `refine` remembers (about four iterations' trials). */
+const RING = 32;
 
 /** Compass directions of `refine`, in trial order: ±p, ±κs, then the four diagonals (no array per iteration). */
 const DIR_P = Float64Array.of(1, -1, 0, 0, 1, -1, 1, -1), DIR_K = Float64Array.of(0, 0, 1, -1, 1, -1, -1, 1);
