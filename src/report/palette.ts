@@ -19,8 +19,11 @@ export const CHARACTER_COLOURS: Record<string, string> = {
   'other': '#dcd6c8',
 };
 
+const parsed = new Map<string, [number, number, number]>();
 function hex(c: string): [number, number, number] {
-  return [parseInt(c.slice(1, 3), 16), parseInt(c.slice(3, 5), 16), parseInt(c.slice(5, 7), 16)];
+  let v = parsed.get(c);
+  if (!v) { v = [parseInt(c.slice(1, 3), 16), parseInt(c.slice(3, 5), 16), parseInt(c.slice(5, 7), 16)]; parsed.set(c, v); }
+  return v;
 }
 
 /** Colour of t ∈ [0, 1] on a ramp of evenly spaced stops, linear in RGB. */

@@ -39,19 +39,20 @@ function chunk(type: string, data: Uint8Array): Buffer {
 }
 
 /**
- * PNG of an 8-bit RGB image (row-major, 3 bytes a pixel, top row first). Every row uses the
- * "Up" filter (a row equal to the one above becomes zeros, which deflate shrinks to nearly nothing).
+ * PNG of an 8-bit RGB image (row-major, 3 bytes a pixel, top row first). A row equal to the one
+ * above is written with the "Up" filter (all zeros, which deflate shrinks to nearly nothing),
+ * any other row unfiltered.
  */
 export function encodePng(width: number, height: number, rgb: Uint8Array): Buffer {
   if (!(width > 0 && height > 0 && Number.isInteger(width) && Number.isInteger(height))) throw new Error(`encodePng: bad size ${width} × ${height}`);
   if (rgb.length !== width * height * 3) throw new Error(`encodePng: ${rgb.length} bytes for ${width} × ${height} RGB`);
   const stride = width * 3;
   const raw = new Uint8Array((stride + 1) * height);
+  const px = Buffer.from(rgb.buffer, rgb.byteOffset, rgb.byteLength);
   for (let y = 0; y < height; y++) {
     const o = y * (stride + 1), r = y * stride;
-    raw[o] = 2;
-    if (y === 0) raw.set(rgb.subarray(0, stride), o + 1);
-    else for (let i = 0; i < stride; i++) raw[o + 1 + i] = (rgb[r + i]! - rgb[r - stride + i]!) & 0xff;
+    if (y > 0 && px.compare(px, r - stride, r, r, r + stride) === 0) raw[o] = 2; // zeros follow
+    else raw.set(rgb.subarray(r, r + stride), o + 1);
   }
   const ihdr = Buffer.alloc(13);
   ihdr.writeUInt32BE(width, 0); ihdr.writeUInt32BE(height, 4);
@@ -90,10 +91,11 @@ export function heatRaster(H: HeatSpec, scale = RASTER_SCALE): HeatRaster {
     const [i0, i1] = span((Math.min(c.x0, c.x1) - x0) / (x1 - x0), (Math.max(c.x0, c.x1) - x0) / (x1 - x0), W);
     // rows run top to bottom: fraction from the top is (y1 − y) / (y1 − y0)
     const [j0, j1] = span((y1 - Math.max(c.y0, c.y1)) / (y1 - y0), (y1 - Math.min(c.y0, c.y1)) / (y1 - y0), Hh);
-    for (let j = j0; j < j1; j++) {
-      let o = (j * W + i0) * 3;
-      for (let i = i0; i < i1; i++) { rgb[o++] = r; rgb[o++] = g; rgb[o++] = b; }
-    }
+    if (i1 <= i0 || j1 <= j0) continue;
+    let o = (j0 * W + i0) * 3;
+    for (let i = i0; i < i1; i++) { rgb[o++] = r; rgb[o++] = g; rgb[o++] = b; }
+    const first = (j0 * W + i0) * 3, len = (i1 - i0) * 3;
+    for (let j = j0 + 1; j < j1; j++) rgb.copyWithin((j * W + i0) * 3, first, first + len);
   }
   return { png: encodePng(W, Hh, rgb), width: W, height: Hh, plot: H.plot };
 }

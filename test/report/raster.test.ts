@@ -47,6 +47,7 @@ describe('PNG encoder', () => {
   it('python3 (zlib.crc32, zlib.decompress) reads back the chunks and the pixels', () => {
     const w = 7, h = 5, rgb = new Uint8Array(w * h * 3);
     for (let i = 0; i < rgb.length; i++) rgb[i] = (i * 37 + (i >> 3) * 11) & 0xff;
+    rgb.copyWithin(2 * 21, 21, 42); rgb.copyWithin(3 * 21, 21, 42); // rows 1–3 equal: the "Up" filter path
     const file = join(tmp('kdx-png-'), 'a.png');
     writeFileSync(file, encodePng(w, h, rgb));
     const py = `
