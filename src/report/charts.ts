@@ -2,7 +2,7 @@
  * Vega specs of our own for the dossier's two chart families: an x–y chart of layers
  * (lines, bands, points, vertical rules, shaded spans) and a heat map of rectangular cells.
  * Domains are computed here (not by vega) so log axes never see non-positive values and the
- * PDF can place natively drawn heat-map cells exactly where vega put its axes.
+ * raster of a heat map's cells can be placed exactly where vega put its axes.
  */
 import type { Spec } from 'vega';
 import { DIVERGING, SEQUENTIAL, SERIES, INK, MUTED } from './palette.js';
@@ -227,7 +227,7 @@ export interface HeatOptions {
 
 export interface HeatSpec {
   spec: Spec;
-  /** the same chart with no cells: axes and legend only (the PDF draws cells natively) */
+  /** the same chart with no cells: axes, legend and border only (the cells go in as a raster, src/report/raster.ts) */
   frame: Spec;
   width: number; height: number;
   plot: { x: number; y: number; width: number; height: number };

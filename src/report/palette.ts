@@ -1,8 +1,8 @@
 /**
  * The dossier's colours (our own): a slate-blue / paper / rust diverging ramp for signed
  * kernel values, a paper-to-pine ramp for magnitudes, and categorical colours for series and
- * region characters. `rampColor` reproduces vega's piecewise RGB interpolation so PDF cells
- * drawn natively match the HTML's.
+ * region characters. `rampColor` reproduces vega's piecewise RGB interpolation so the raster
+ * of a heat map's cells (src/report/raster.ts) matches its vega legend.
  */
 export const DIVERGING = ['#2b5c8a', '#f4f1e8', '#b5542d'] as const;
 export const SEQUENTIAL = ['#f4f1e8', '#8fb8a8', '#1f5a4c'] as const;
