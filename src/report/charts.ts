@@ -133,7 +133,7 @@ function legendOf(layers: Layer[], scales: Record<string, unknown>[], legends: R
     labelFont: FONT, labelFontSize: 10, labelLimit: 240, symbolType: 'square' });
 }
 
-/** Extra bottom padding a legend of `n` entries below the plot needs (two columns, ~16 px a row). */
+/** Rows of a legend of `n` entries below the plot (two columns; a row takes ~20 px: 10-px symbol and label, row padding, line gap). */
 function legendRows(layers: Layer[]): number {
   return Math.ceil(layers.filter((l) => l.kind === 'line' || l.kind === 'points' || l.kind === 'band').length / 2);
 }
@@ -153,7 +153,7 @@ export function xySpec(layers: Layer[], o: XYOptions): { spec: Spec; width: numb
   ];
   const legends: Record<string, unknown>[] = [];
   if (o.legend) legendOf(layers, scales, legends);
-  const pad = { ...PAD, bottom: PAD.bottom + (o.legend ? 16 * legendRows(layers) + 6 : 0) };
+  const pad = { ...PAD, bottom: PAD.bottom + (o.legend ? 20 * legendRows(layers) + 6 : 0) };
   const spec = {
     $schema: 'https://vega.github.io/schema/vega/v6.json',
     width, height, padding: pad, autosize: 'none', background: '#ffffff',
