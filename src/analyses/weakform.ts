@@ -153,17 +153,18 @@ export function designMatrix(G: Mat, block: WeakBlock, P: number): Float64Array 
   const s0 = nS ? src[0]! : 0;
   let contiguous = true;
   for (let k = 1; k < nS && contiguous; k++) if (src[k] !== s0 + k) contiguous = false;
-  const row = new Float64Array(nS);
+  const row = contiguous ? null : new Float64Array(nS);
   for (let q = 0; q < sup.length; q++) {
     const gi = sup[q]! * nIn;
-    if (contiguous) { for (let k = 0; k < nS; k++) row[k] = g[gi + s0 + k]!; }
-    else { for (let k = 0; k < nS; k++) row[k] = g[gi + src[k]!]!; }
+    // contiguous sources: read the row of G in place (no copy)
+    const r = row ?? g, ro = row ? 0 : gi + s0;
+    if (row) for (let k = 0; k < nS; k++) row[k] = g[gi + src[k]!]!;
     const pq = q * P;
     for (let j = 0; j < P; j++) {
       const pj = psi[pq + j]!;
       if (pj === 0) continue;
       const o = j * nS;
-      for (let k = 0; k < nS; k++) Mt[o + k] += row[k]! * pj;
+      for (let k = 0; k < nS; k++) Mt[o + k] += r[ro + k]! * pj;
     }
   }
   const M = block.kink && block.kink.length === nS * P ? new Float64Array(block.kink) : new Float64Array(nS * P);
