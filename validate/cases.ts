@@ -59,7 +59,7 @@ export const cases: Case[] = [
   },
   {
     name: 'variable-conductivity', family: 'variable coefficients', spec: 'a=1+x^2',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', interfaces: [], profiles: [{ term: 'diffusion', truth: (x) => 1 + x * x, label: '1 + x²' }], absentTerms: ['reaction'] },
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', oscillation: 'no', interfaces: [], profiles: [{ term: 'diffusion', truth: (x) => 1 + x * x, label: '1 + x²' }], absentTerms: ['reaction'] },
   },
   {
     name: 'transport-plus-x', family: 'transport', spec: 'a=0.05; b=1', fast: true,
@@ -79,19 +79,19 @@ export const cases: Case[] = [
   },
   {
     name: 'bar-one-interface', family: 'piecewise', spec: 'a=pw(1,0.4,10)',
-    expect: { regions: [{ at: 0.2, character: 'diffusion' }, { at: 0.7, character: 'diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
+    expect: { regions: [{ at: 0.2, character: 'diffusion' }, { at: 0.7, character: 'diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
   },
   {
     name: 'bar-two-interfaces', family: 'piecewise', spec: 'a=pw(1,0.3,4,0.7,1)',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, interfaces: [0.3, 0.7] },
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.3, 0.7] },
   },
   {
     name: 'diffusion-joined-to-belt', family: 'piecewise', spec: 'a=pw(1,0.55,0.05); b=pw(0,0.55,1)',
-    expect: { regions: [{ at: 0.25, character: 'diffusion' }, { at: 0.8, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, interfaces: [0.55] },
+    expect: { regions: [{ at: 0.25, character: 'diffusion' }, { at: 0.8, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.55] },
   },
   {
     name: 'internal-layer', family: 'internal layer', spec: 'a=0.0005; b=2*(0.45-x); left=dirichlet(1); right=dirichlet(-1)',
-    expect: { self_adjoint: 'no', order: 2, singularities: [0.45] },
+    expect: { self_adjoint: 'no', order: 2, oscillation: 'no', singularities: [0.45] },
   },
   {
     name: 'clamped-beam', family: 'fourth order', spec: 'e=1', fast: true,
@@ -125,9 +125,11 @@ export const cases: Case[] = [
     // the demo's operator (examples/conveyor-oven/scenario.json): a belt carrying heat toward +x
     // between 0.3 and 0.7 in a uniformly conducting bar, ends held at 20 and 60
     name: 'conveyor-belt', family: 'piecewise', spec: 'a=0.05; b=pw(0,0.3,1,0.7,0); left=dirichlet(20); right=dirichlet(60)', count: 120, lengthScale: 0.05, amplitudes: [20, 40],
-    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, interfaces: [0.3, 0.7] },
+    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.3, 0.7] },
   },
 ];
 
+// oscillation: 'no' on every operator without a wave (negative reaction) term, piecewise ones included: a
+// constant-coefficient column family fitted across an interface must not turn a drift or a jump into an oscillation
 export const noiseLevels = [0, 0.01, 0.1, 1.0];
 export const seeds = [1, 2];

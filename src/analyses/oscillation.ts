@@ -407,7 +407,7 @@ export interface FourthOrderWave { theta: number; residual: number; thetaSd: num
  * (for per-region answers). `reps` (resampled kernels) give the uncertainty; pass [] to skip.
  * `driftRate` (b/a, e.g. from the transport analysis) is the starting value of −p.
  */
-export function localWaveNumber(kernel: Kernel, interval: [number, number], reps: Mat[] = [], opts: { maxReplicates?: number; driftRate?: number; symmetric?: boolean } = {}): LocalWave | null {
+export function localWaveNumber(kernel: Kernel, interval: [number, number], reps: Mat[] = [], opts: { maxReplicates?: number; driftRate?: number; symmetric?: boolean; fourthVote?: boolean } = {}): LocalWave | null {
   if (kernel.dimension !== 1 || kernel.components.in !== 1 || kernel.components.out !== 1) return null;
   const L = domainLength(kernel);
   const n = kernel.pointsOut.rows;
@@ -444,7 +444,7 @@ export function localWaveNumber(kernel: Kernel, interval: [number, number], reps
   // explain the segments, θ is weakly determined near 0 and a refit started at the estimate would
   // understate its spread: each replicate is then refitted from the full grid, so that the vote
   // (θ's one-sided 95 % bound below the lowest mode, `decideAbove`) rests on θ's real spread
-  const rf4 = adequate4 ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, pr4!, segs, kmax, identified ? f4.ks : undefined)) : [];
+  const rf4 = adequate4 && opts.fourthVote !== false ? reps.slice(0, Math.min(8, opts.maxReplicates ?? 8)).map((R) => fitWave4(R, pr4!, segs, kmax, identified ? f4.ks : undefined)) : [];
   const fourth: FourthOrderWave = {
     theta: f4.theta, residual: f4.residual, thetaSd: rf4.length >= 3 ? std(rf4.map((r) => r.theta)) : null,
     adequate: adequate4, identified, cubicResidual,
@@ -464,6 +464,12 @@ function saVerdict(ctx: Context): YesNo | undefined {
   return (ctx.results['self_adjoint']?.finding as Findings['self_adjoint'] | undefined)?.verdict;
 }
 
+/** The transport analysis's drift rate b/a (the column fits' starting drift), 0 without one. */
+function driftRateOf(ctx: Context): number {
+  const tr = ctx.results['transport']?.evidence.plot?.['drift_rate'];
+  return Array.isArray(tr) && typeof tr[0] === 'number' && Number.isFinite(tr[0]) ? tr[0] : 0;
+}
+
 function globalFit(kernel: Kernel, ctx: Context): { lw: LocalWave | null; why: string | null } {
   const hit = cache.get(kernel.G);
   if (hit) return hit;
@@ -473,10 +479,8 @@ function globalFit(kernel: Kernel, ctx: Context): { lw: LocalWave | null; why: s
   else {
     const d = kernel.domain;
     const iv: [number, number] = d.kind === 'interval' ? d.bounds : [Math.min(...kernel.pointsOut.data), Math.max(...kernel.pointsOut.data)];
-    const tr = ctx.results['transport']?.evidence.plot?.['drift_rate'];
-    const r = Array.isArray(tr) && typeof tr[0] === 'number' && Number.isFinite(tr[0]) ? tr[0] : 0;
     // a self-adjoint constant-coefficient operator has no drift term: p = 0
-    const lw = localWaveNumber(kernel, iv, replicates(ctx), { driftRate: r, symmetric: saVerdict(ctx) === 'yes' });
+    const lw = localWaveNumber(kernel, iv, replicates(ctx), { driftRate: driftRateOf(ctx), symmetric: saVerdict(ctx) === 'yes', fourthVote: fourthOrderApplies(ctx) });
     out = { lw, why: lw ? null : 'too few off-diagonal column segments' };
   }
   cache.set(kernel.G, out);
@@ -550,16 +554,86 @@ function resolution(kernel: Kernel): number {
 
 type Vote = { by: string; decision: 'present' | 'absent' | 'inconclusive'; confidence: number };
 
+/** Confidence of the order analysis's estimate 2 above which the fourth-order column family is not used (as the pipeline's 0.9 for established findings). */
+const ORDER_ESTABLISHED = 0.9;
+
+function secondOrderEstablished(ctx: Context): boolean {
+  const order = ctx.results['order']?.finding as Findings['order'] | undefined;
+  return order?.estimate === 2 && order.confidence >= ORDER_ESTABLISHED;
+}
+
+/**
+ * Whether the fourth-order column family {1, t, F₂, F₃} may vote. It solves u⁗ + θu″ = 0, a drift-free
+ * operator; a second-order operator's columns span only two functions per segment, so once order 2 is
+ * established its two extra functions are spurious freedom (they fit a drift or a varying coefficient as
+ * readily as an oscillation); and a kernel shown not to be self-adjoint has a drift the family lacks.
+ */
+function fourthOrderApplies(ctx: Context): boolean {
+  return !secondOrderEstablished(ctx) && saVerdict(ctx) !== 'no';
+}
+
+/** Interfaces located with at least even odds (the interfaces analysis, run before this one). */
+const REGION_INTERFACE_CONFIDENCE = 0.5;
+
+interface RegionWave { bounds: [number, number]; lw: LocalWave; votes: Vote[]; decision: Vote['decision']; confidence: number }
+
+/**
+ * A medium with interfaces has no single constant-coefficient column family: the column fits are made on each
+ * region between the interfaces (rows inside it, kept 2 location uncertainties or 2 grid cells off each
+ * interface), each judged against that region's lowest mode (π/ℓ)² — a slower oscillation does not show within
+ * it. Null without interfaces (1-D scalar kernels only).
+ */
+function regionWaves(kernel: Kernel, ctx: Context, fourthOk: boolean, driftRate: number): RegionWave[] | null {
+  if (kernel.dimension !== 1 || kernel.components.in !== 1 || kernel.components.out !== 1) return null;
+  const ifs = ((ctx.results['interfaces']?.finding as Findings['interfaces'] | undefined) ?? [])
+    .filter((i) => typeof i.location === 'number' && i.confidence >= REGION_INTERFACE_CONFIDENCE)
+    .sort((p, q) => (p.location as number) - (q.location as number));
+  if (!ifs.length) return null;
+  const d = kernel.domain, x = kernel.pointsOut.data;
+  const [lo, hi] = d.kind === 'interval' ? d.bounds : [Math.min(...x), Math.max(...x)];
+  const cell = domainLength(kernel) / Math.max(1, x.length - 1);
+  const margin = (i: (typeof ifs)[number]) => Math.max(2 * (Number.isFinite(i.uncertainty) ? i.uncertainty : 0), 2 * cell);
+  const out: RegionWave[] = [];
+  for (let r = 0; r <= ifs.length; r++) {
+    const a = r === 0 ? lo : (ifs[r - 1]!.location as number) + margin(ifs[r - 1]!);
+    const b = r === ifs.length ? hi : (ifs[r]!.location as number) - margin(ifs[r]!);
+    if (!(b > a)) continue;
+    const lw = localWaveNumber(kernel, [a, b], replicates(ctx), { driftRate, symmetric: saVerdict(ctx) === 'yes', fourthVote: fourthOk });
+    if (!lw) continue;
+    const res = (Math.PI / (b - a)) ** 2;
+    const where = `[${a.toPrecision(3)}, ${b.toPrecision(3)}]`;
+    const votes: Vote[] = [];
+    if (lw.adequate) votes.push({ by: `second-order fit on ${where}`, ...decideAbove(lw.theta, lw.thetaSd ?? NaN, res) });
+    if (lw.fourth.adequate && fourthOk) votes.push({ by: `fourth-order fit on ${where}`, ...decideAbove(lw.fourth.theta, lw.fourth.thetaSd ?? NaN, res) });
+    const agree = votes.length > 0 && votes.every((v) => v.decision === votes[0]!.decision);
+    out.push({ bounds: [a, b], lw, votes, decision: agree ? votes[0]!.decision : 'inconclusive', confidence: agree ? Math.min(...votes.map((v) => v.confidence)) : 0.5 });
+  }
+  return out.length ? out : null;
+}
+
 export const oscillation: Analysis<Findings['oscillation']> = {
   key: 'oscillation',
-  dependsOn: ['self_adjoint', 'order', 'transport'],
+  dependsOn: ['self_adjoint', 'order', 'transport', 'interfaces'],
   run(kernel, ctx) {
     const { lw, why } = globalFit(kernel, ctx);
     const sign = spectralSignTest(kernel, ctx);
     const votes: Vote[] = [];
     const res = resolution(kernel);
-    if (lw?.adequate) votes.push({ by: 'second-order fit', ...decideAbove(lw.theta, lw.thetaSd ?? NaN, res) });
-    if (lw?.fourth.adequate) votes.push({ by: 'fourth-order fit', ...decideAbove(lw.fourth.theta, lw.fourth.thetaSd ?? NaN, res) });
+    const fourthOk = fourthOrderApplies(ctx), secondOrder = secondOrderEstablished(ctx);
+    const regionFits = regionWaves(kernel, ctx, fourthOk, driftRateOf(ctx));
+    let waveRegion: RegionWave | null = null;
+    if (regionFits) {
+      // per region: a region that oscillates makes the kernel oscillatory; all regions without oscillation, not
+      if (regionFits.some((r) => r.decision === 'present')) {
+        waveRegion = regionFits.filter((r) => r.decision === 'present').sort((p, q) => q.confidence - p.confidence)[0]!;
+        votes.push({ by: `column fits per region (${waveRegion.votes.map((v) => v.by).join(', ')})`, decision: 'present', confidence: waveRegion.confidence });
+      } else if (regionFits.every((r) => r.decision === 'absent')) {
+        votes.push({ by: `column fits per region (${regionFits.length} regions)`, decision: 'absent', confidence: Math.min(...regionFits.map((r) => r.confidence)) });
+      } else votes.push({ by: 'column fits per region', decision: 'inconclusive', confidence: 0.5 });
+    } else {
+      if (lw?.adequate) votes.push({ by: 'second-order fit', ...decideAbove(lw.theta, lw.thetaSd ?? NaN, res) });
+      if (lw?.fourth.adequate && fourthOk) votes.push({ by: 'fourth-order fit', ...decideAbove(lw.fourth.theta, lw.fourth.thetaSd ?? NaN, res) });
+    }
     // the sign test counts only when it decides (it is undecided by construction with few trusted values)
     if (sign.decision !== 'inconclusive') votes.push({ by: 'spectrum sign', decision: sign.decision, confidence: sign.confidence });
     let verdict: YesNo = 'inconclusive', confidence = 0.5;
@@ -572,7 +646,9 @@ export const oscillation: Analysis<Findings['oscillation']> = {
       return o;
     }
     // wavenumber from the adequate fit (second order first; the fourth-order family nests it)
-    const useFit = lw ? (lw.adequate ? { theta: lw.theta, sd: lw.thetaSd } : lw.fourth.adequate ? { theta: lw.fourth.theta, sd: lw.fourth.thetaSd } : null) : null;
+    const useFit = waveRegion
+      ? (waveRegion.lw.adequate ? { theta: waveRegion.lw.theta, sd: waveRegion.lw.thetaSd } : { theta: waveRegion.lw.fourth.theta, sd: waveRegion.lw.fourth.thetaSd })
+      : lw && !regionFits ? (lw.adequate ? { theta: lw.theta, sd: lw.thetaSd } : lw.fourth.adequate && fourthOk ? { theta: lw.fourth.theta, sd: lw.fourth.thetaSd } : null) : null;
     const k = useFit && useFit.theta > 0 ? Math.sqrt(useFit.theta) : null;
     const sd = useFit?.sd ?? NaN;
     const kSd = k && Number.isFinite(sd) ? sd / (2 * k) : null;
@@ -599,7 +675,8 @@ export const oscillation: Analysis<Findings['oscillation']> = {
       evidence: {
         statistic: lw ? sig(lw.theta, 4) : sign.negatives,
         noise_floor: lw ? sig(lw.thetaSd, 3) : null,
-        summary: (lw ? `Column segments: second-order fit k² = ${lw.theta.toPrecision(4)} ± ${lw.thetaSd !== null ? lw.thetaSd.toPrecision(2) : '?'} (p = ${lw.p.toPrecision(3)}, residual ${lw.residual.toPrecision(2)}${lw.adequate ? '' : ', not adequate'}), fourth-order fit k² = ${lw.fourth.theta.toPrecision(4)} (residual ${lw.fourth.residual.toPrecision(2)}${lw.fourth.adequate ? '' : ', not adequate'}). ` : '') +
+        summary: (lw ? `Column segments: second-order fit k² = ${lw.theta.toPrecision(4)} ± ${lw.thetaSd !== null ? lw.thetaSd.toPrecision(2) : '?'} (p = ${lw.p.toPrecision(3)}, residual ${lw.residual.toPrecision(2)}${lw.adequate ? '' : ', not adequate'}), fourth-order fit k² = ${lw.fourth.theta.toPrecision(4)} (residual ${lw.fourth.residual.toPrecision(2)}${lw.fourth.adequate ? (fourthOk ? '' : secondOrder ? ', not used: order 2 is established, and a second-order operator has two column solutions, not four' : ', not used: the kernel is not self-adjoint, and the family has no drift') : ', not adequate'}). ` : '') +
+          (regionFits ? `The medium has interfaces, so the column fits are made per region: ${regionFits.map((r) => `[${r.bounds[0].toPrecision(3)}, ${r.bounds[1].toPrecision(3)}] ${r.decision}${r.decision !== 'inconclusive' ? ` (${r.confidence.toFixed(2)})` : ''}`).join('; ')}. ` : '') +
           (sign.trusted >= 6 ? `${sign.negatives} negative among ${sign.trusted} trustworthy eigenvalues. ` : '') +
           `Evidence: ${vtxt || 'none decisive'} — ` +
           (verdict === 'yes' ? `oscillatory${k ? ` with wavenumber ${k.toPrecision(4)}` : ''}.` : verdict === 'no' ? 'no oscillation.' : 'not decided.'),

@@ -20,11 +20,11 @@ export const analyses: Analysis<unknown>[] = [
   transport as Analysis<unknown>, // after self_adjoint
   order as Analysis<unknown>,
   locality as Analysis<unknown>, // after order (shares its spectrum)
-  oscillation as Analysis<unknown>, // after order and transport
+  interfacesAnalysis as Analysis<unknown>,
+  oscillation as Analysis<unknown>, // after order, transport and interfaces (column fits per region)
   screening as Analysis<unknown>,
   coupling as Analysis<unknown>,
   singularities as Analysis<unknown>,
-  interfacesAnalysis as Analysis<unknown>,
   translation as Analysis<unknown>, // after interfaces
   operatorAnalysis as Analysis<unknown>, // after order, self_adjoint and interfaces; before regions
   regions as Analysis<unknown>, // after interfaces, operator, order, locality

@@ -1,6 +1,6 @@
 import { describe, it, expect } from 'vitest';
 import { oscillation, screening, localWaveNumber } from '../../src/analyses/oscillation.js';
-import { kernel1d, laplace, helmholtz, screened, clampedBeam } from '../helpers/closedForms.js';
+import { kernel1d, laplace, helmholtz, screened, clampedBeam, piecewise, advdiff } from '../helpers/closedForms.js';
 import type { Kernel } from '../../src/types.js';
 import { selfAdjoint } from '../../src/analyses/selfAdjoint.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
@@ -53,6 +53,43 @@ describe('oscillation and screening', () => {
     expect(o.fourth_order_adequate).toBe(true);
     expect(o.k_squared_fourth_order as number).toBeLessThan(Math.PI ** 2);
     expect(o.verdict).toBe('no');
+  });
+  it('the fourth-order column family does not vote once order 2 is established: on the clamped beam (references (f1)) with only the column fits, a stated order 2 leaves the verdict undecided', () => {
+    const { kernel, ctx } = noisy(kernel1d(clampedBeam, 160), 0.001, 55);
+    ctx.fit = { coverage: { identified_rank: 4 } } as unknown as typeof ctx.fit;
+    ctx.results['self_adjoint'] = selfAdjoint.run(kernel, ctx);
+    // the beam's columns are cubics: the second-order family cannot explain them, the fourth-order one can; told
+    // (wrongly) that the operator is of second order, the analysis has no applicable model left and must not decide
+    ctx.results['order'] = { finding: { estimate: 2, confidence: 0.99 } } as unknown as (typeof ctx.results)[string];
+    const o = oscillation.run(kernel, ctx).finding;
+    expect(o.model_adequate).toBe(false);
+    expect(o.fourth_order_adequate).toBe(true);
+    expect(o.verdict).toBe('inconclusive');
+    expect((o as { votes: { by: string }[] }).votes.some((v) => v.by === 'fourth-order fit')).toBe(false);
+    // order 4 established: the family votes again (no oscillation, as above; a new matrix object, since the column fit is cached per kernel)
+    ctx.results['order'] = { finding: { estimate: 4, confidence: 0.99 } } as unknown as (typeof ctx.results)[string];
+    const again = oscillation.run({ ...kernel, G: { ...kernel.G } }, ctx).finding;
+    expect(again.verdict).toBe('no');
+  });
+  it('with interfaces the column fits are made per region: the bar a = 1 | 10 at 0.4 (references (e)) has no oscillation, Helmholtz k = 15 cut at 0.5 keeps it in both halves', () => {
+    const stated = (at: number) => ({ finding: [{ location: at, uncertainty: 0.005, confidence: 1 }] }) as unknown as Parameters<typeof oscillation.run>[1]['results'][string];
+    const bar = noisy(kernel1d(piecewise(1, 10, 0.4), 160), 0.003, 56);
+    bar.ctx.results['self_adjoint'] = selfAdjoint.run(bar.kernel, bar.ctx);
+    bar.ctx.results['interfaces'] = stated(0.4);
+    const b = oscillation.run(bar.kernel, bar.ctx).finding;
+    expect(b.verdict).toBe('no');
+    expect((b as { votes: { by: string }[] }).votes[0]!.by).toContain('per region');
+    const wave = noisy(kernel1d(helmholtz(15), 160), 0.003, 57);
+    wave.ctx.results['interfaces'] = stated(0.5);
+    const w = oscillation.run(wave.kernel, wave.ctx).finding;
+    expect(w.verdict).toBe('yes');
+    // Duffy; Butkovskiy (from memory): the wavenumber of −u″ − 225u, from one half's columns
+    expect(Math.abs(w.wavenumber! - 15) / 15).toBeLessThan(0.01);
+  });
+  it('advection–diffusion −0.05u″ + u′ (references (d)): without interfaces the drifted second-order fit decides, no oscillation', () => {
+    const { kernel, ctx } = noisy(kernel1d(advdiff(0.05, 1), 160), 0.003, 58);
+    ctx.results['self_adjoint'] = selfAdjoint.run(kernel, ctx);
+    expect(oscillation.run(kernel, ctx).finding.verdict).toBe('no');
   });
   it('2-D: the sign of the spectrum separates −Δ − k² (k² above the lowest mode) from −Δ on the unit square', () => {
     // bilinear eigenfunction series G = Σ φ_mn(x) φ_mn(s) / (π²(m² + n²) − k²), φ_mn = 2 sin mπx sin nπy
