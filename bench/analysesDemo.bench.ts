@@ -2,9 +2,9 @@
  * The diagnosis inside `kerneldx run` on the demo study (conveyor oven, 200 points, piecewise belt):
  * what src/pipeline.ts diagnoseStudy spends in the analyses — the self_adjoint pre-pass on the first
  * fit plus the full diagnosis of the final fit — CPU seconds warm (the best of two repeats on fresh
- * copies of the kernels, after a cold first call), every analysis's time beside it. Target: 1.5 s,
- * issue 5's diagnosis share of the 5 s `run` budget (about 2.5 s before this bench existed) less the
- * 1 s cut asked for. The fits themselves are not counted (fit.bench.ts, report.bench.ts).
+ * copies of the kernels, after a cold first call), every analysis's time beside it. Informational: the
+ * issue's targets are for the whole `run` (report.bench.ts) and the diagnosis of a 200-point kernel
+ * (diagnose.bench.ts); this shows the diagnosis's share of the demo's `run`. The fits are not counted.
  */
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -51,12 +51,12 @@ export async function run(): Promise<boolean> {
       runs.push({ pre: (cp.user + cp.system) / 1e6, diag: (cd.user + cd.system) / 1e6, times });
     }
     const warm = runs.slice(1).sort((p, q) => p.pre + p.diag - (q.pre + q.diag))[0]!;
-    const total = warm.pre + warm.diag, target = 1.5;
+    const total = warm.pre + warm.diag;
     const widths = [44, 10, 10, 10, 8];
-    console.log(row(['demo diagnosis (conveyor oven, 200 points)', 'cold s', 'warm s', 'target s', 'ratio'], widths));
-    console.log(row(['self_adjoint pre-pass + final diagnosis', runs[0]!.pre + runs[0]!.diag, total, target, total / target], widths) + (total < target ? '' : '  MISSED'));
+    console.log(row(['demo diagnosis (conveyor oven, 200 points)', 'cold s', 'warm s', 'target s', ''], widths));
+    console.log(row(['self_adjoint pre-pass + final diagnosis', runs[0]!.pre + runs[0]!.diag, total, '-', 'info'], widths));
     console.log(`    pre-pass ${warm.pre.toFixed(2)} · ` + Object.entries(warm.times).filter(([, v]) => v >= 0.005).map(([k, v]) => `${k} ${v.toFixed(2)}`).join(' · '));
-    return total < target;
+    return true;
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }
