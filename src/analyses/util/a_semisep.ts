@@ -176,16 +176,7 @@ export function locateKink(G: Mat, x: Float64Array, s: Float64Array, t0: number,
     const cols: number[] = [];
     for (let j = 0; j < s.length; j++) if (side * (s[j]! - t0) > R + gap) cols.push(j);
     if (cols.length < 3) continue;
-    // leading left singular vector of the block by power iteration on B Bᵀ
-    let u = new Float64Array(rowsI.length).fill(1);
-    for (let it = 0; it < 50; it++) {
-      const v = cols.map((j) => rowsI.reduce((acc, i, a) => acc + G.data[i * G.cols + j]! * u[a]!, 0));
-      const nu = Float64Array.from(rowsI, (i) => cols.reduce((acc, j, b) => acc + G.data[i * G.cols + j]! * v[b]!, 0));
-      const nrm = Math.hypot(...nu);
-      if (!(nrm > 0)) break;
-      u = Float64Array.from(nu, (q) => q / nrm);
-    }
-    factors.push(u);
+    factors.push(leadingLeftVector(G, rowsI, cols));
   }
   if (!factors.length) return null;
   // a fitted kernel carries the kink smeared over its resolution: the hinge is smoothed by a
@@ -205,6 +196,46 @@ export function locateKink(G: Mat, x: Float64Array, s: Float64Array, t0: number,
     taus.push(t); rss.push(best);
   }
   return profileInterval(taus, rss, factors.length * (rowsI.length - 6));
+}
+
+/**
+ * Leading left singular vector of the block G[rows, cols] by 50 power iterations on B Bᵀ from the ones vector
+ * (each sum accumulated in index order).
+ */
+function leadingLeftVector(G: Mat, rowsI: number[], cols: number[]): Float64Array {
+  const m = rowsI.length, k = cols.length, n = G.cols, g = G.data;
+  // the block, row-major, gathered once
+  const B = new Float64Array(m * k);
+  for (let a = 0; a < m; a++) for (let b = 0; b < k; b++) B[a * k + b] = g[rowsI[a]! * n + cols[b]!]!;
+  let u = new Float64Array(m).fill(1);
+  const v = new Float64Array(k), nu = new Float64Array(m);
+  for (let it = 0; it < 50; it++) {
+    blockTransposeTimes(B, m, k, u, v);
+    blockTimes(B, m, k, v, nu);
+    const nrm = Math.hypot(...nu);
+    if (!(nrm > 0)) break;
+    u = Float64Array.from(nu, (q) => q / nrm);
+  }
+  return u;
+}
+
+/** v = Bᵀ u, each v_b summed over a in order */
+function blockTransposeTimes(B: Float64Array, m: number, k: number, u: Float64Array, v: Float64Array): void {
+  for (let b = 0; b < k; b++) {
+    let acc = 0;
+    for (let a = 0; a < m; a++) acc += B[a * k + b]! * u[a]!;
+    v[b] = acc;
+  }
+}
+
+/** w = B v, each w_a summed over b in order */
+function blockTimes(B: Float64Array, m: number, k: number, v: Float64Array, w: Float64Array): void {
+  for (let a = 0; a < m; a++) {
+    let acc = 0;
+    const o = a * k;
+    for (let b = 0; b < k; b++) acc += B[o + b]! * v[b]!;
+    w[a] = acc;
+  }
 }
 
 function gaussPdf(z: number): number { return Math.exp(-0.5 * z * z) / Math.sqrt(2 * Math.PI); }
