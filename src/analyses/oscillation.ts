@@ -572,20 +572,23 @@ function fourthOrderApplies(ctx: Context): boolean {
   return !secondOrderEstablished(ctx) && saVerdict(ctx) !== 'no';
 }
 
-/** Interfaces located with at least even odds (the interfaces analysis, run before this one). */
+/** Interfaces and layers located with at least even odds (the interfaces and singularities analyses run before this one). */
 const REGION_INTERFACE_CONFIDENCE = 0.5;
 
 interface RegionWave { bounds: [number, number]; lw: LocalWave; votes: Vote[]; decision: Vote['decision']; confidence: number }
 
 /**
- * A medium with interfaces has no single constant-coefficient column family: the column fits are made on each
- * region between the interfaces (rows inside it, kept 2 location uncertainties or 2 grid cells off each
- * interface), each judged against that region's lowest mode (π/ℓ)² — a slower oscillation does not show within
- * it. Null without interfaces (1-D scalar kernels only).
+ * A medium with interfaces or internal layers has no single constant-coefficient column family: the column fits
+ * are made on each region between the interfaces and the layers the singularities analysis located (rows inside
+ * it, kept 2 location uncertainties — a layer's width — or 2 grid cells off each cut), each judged against that
+ * region's lowest mode (π/ℓ)²: a slower oscillation does not show within it. Null without cuts (1-D scalar
+ * kernels only).
  */
 function regionWaves(kernel: Kernel, ctx: Context, fourthOk: boolean, driftRate: number): RegionWave[] | null {
   if (kernel.dimension !== 1 || kernel.components.in !== 1 || kernel.components.out !== 1) return null;
-  const ifs = ((ctx.results['interfaces']?.finding as Findings['interfaces'] | undefined) ?? [])
+  const layers = ((ctx.results['singularities']?.finding as Findings['singularities'] | undefined) ?? [])
+    .map((q) => ({ location: q.location, uncertainty: q.width, confidence: q.confidence }));
+  const ifs = [...((ctx.results['interfaces']?.finding as Findings['interfaces'] | undefined) ?? []), ...layers]
     .filter((i) => typeof i.location === 'number' && i.confidence >= REGION_INTERFACE_CONFIDENCE)
     .sort((p, q) => (p.location as number) - (q.location as number));
   if (!ifs.length) return null;
@@ -613,7 +616,7 @@ function regionWaves(kernel: Kernel, ctx: Context, fourthOk: boolean, driftRate:
 
 export const oscillation: Analysis<Findings['oscillation']> = {
   key: 'oscillation',
-  dependsOn: ['self_adjoint', 'order', 'transport', 'interfaces'],
+  dependsOn: ['self_adjoint', 'order', 'transport', 'interfaces', 'singularities'],
   run(kernel, ctx) {
     const { lw, why } = globalFit(kernel, ctx);
     const sign = spectralSignTest(kernel, ctx);
@@ -676,7 +679,7 @@ export const oscillation: Analysis<Findings['oscillation']> = {
         statistic: lw ? sig(lw.theta, 4) : sign.negatives,
         noise_floor: lw ? sig(lw.thetaSd, 3) : null,
         summary: (lw ? `Column segments: second-order fit k² = ${lw.theta.toPrecision(4)} ± ${lw.thetaSd !== null ? lw.thetaSd.toPrecision(2) : '?'} (p = ${lw.p.toPrecision(3)}, residual ${lw.residual.toPrecision(2)}${lw.adequate ? '' : ', not adequate'}), fourth-order fit k² = ${lw.fourth.theta.toPrecision(4)} (residual ${lw.fourth.residual.toPrecision(2)}${lw.fourth.adequate ? (fourthOk ? '' : secondOrder ? ', not used: order 2 is established, and a second-order operator has two column solutions, not four' : ', not used: the kernel is not self-adjoint, and the family has no drift') : ', not adequate'}). ` : '') +
-          (regionFits ? `The medium has interfaces, so the column fits are made per region: ${regionFits.map((r) => `[${r.bounds[0].toPrecision(3)}, ${r.bounds[1].toPrecision(3)}] ${r.decision}${r.decision !== 'inconclusive' ? ` (${r.confidence.toFixed(2)})` : ''}`).join('; ')}. ` : '') +
+          (regionFits ? `The medium has interfaces or internal layers, so the column fits are made per region between them: ${regionFits.map((r) => `[${r.bounds[0].toPrecision(3)}, ${r.bounds[1].toPrecision(3)}] ${r.decision}${r.decision !== 'inconclusive' ? ` (${r.confidence.toFixed(2)})` : ''}`).join('; ')}. ` : '') +
           (sign.trusted >= 6 ? `${sign.negatives} negative among ${sign.trusted} trustworthy eigenvalues. ` : '') +
           `Evidence: ${vtxt || 'none decisive'} — ` +
           (verdict === 'yes' ? `oscillatory${k ? ` with wavenumber ${k.toPrecision(4)}` : ''}.` : verdict === 'no' ? 'no oscillation.' : 'not decided.'),

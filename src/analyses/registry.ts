@@ -21,10 +21,10 @@ export const analyses: Analysis<unknown>[] = [
   order as Analysis<unknown>,
   locality as Analysis<unknown>, // after order (shares its spectrum)
   interfacesAnalysis as Analysis<unknown>,
-  oscillation as Analysis<unknown>, // after order, transport and interfaces (column fits per region)
+  singularities as Analysis<unknown>,
+  oscillation as Analysis<unknown>, // after order, transport, interfaces and singularities (column fits per region)
   screening as Analysis<unknown>,
   coupling as Analysis<unknown>,
-  singularities as Analysis<unknown>,
   translation as Analysis<unknown>, // after interfaces
   operatorAnalysis as Analysis<unknown>, // after order, self_adjoint and interfaces; before regions
   regions as Analysis<unknown>, // after interfaces, operator, order, locality

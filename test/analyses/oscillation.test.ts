@@ -86,6 +86,15 @@ describe('oscillation and screening', () => {
     // Duffy; Butkovskiy (from memory): the wavenumber of −u″ − 225u, from one half's columns
     expect(Math.abs(w.wavenumber! - 15) / 15).toBeLessThan(0.01);
   });
+  it('a located internal layer cuts the column fits like an interface: Helmholtz k = 15 with a layer stated at 0.6 keeps k from both sides', () => {
+    const wave = noisy(kernel1d(helmholtz(15), 160), 0.003, 59);
+    wave.ctx.results['singularities'] = { finding: [{ location: 0.6, width: 0.01, confidence: 0.9 }] } as unknown as Parameters<typeof oscillation.run>[1]['results'][string];
+    const w = oscillation.run(wave.kernel, wave.ctx).finding;
+    expect((w as { votes: { by: string }[] }).votes[0]!.by).toContain('per region');
+    expect(w.verdict).toBe('yes');
+    // Duffy; Butkovskiy (from memory)
+    expect(Math.abs(w.wavenumber! - 15) / 15).toBeLessThan(0.01);
+  });
   it('advection–diffusion −0.05u″ + u′ (references (d)): without interfaces the drifted second-order fit decides, no oscillation', () => {
     const { kernel, ctx } = noisy(kernel1d(advdiff(0.05, 1), 160), 0.003, 58);
     ctx.results['self_adjoint'] = selfAdjoint.run(kernel, ctx);
