@@ -107,7 +107,6 @@ type Located = ReturnType<typeof detectInterfaces>['interfaces'][number];
 
 function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void, det: Located[], sidesOut: { value: Sides | null }, seed: number, unconstrained?: FitResult): FitResult {
   let fit = fitIn;
-  const scalar = fit.kernel.components.in === 1 && fit.kernel.components.out === 1;
   // candidates: the interfaces of the kernel in use and, when a symmetric refit replaced it, of the
   // unconstrained kernel too (a symmetric fit can smooth a weakly seen change away); of two within each
   // other's uncertainty (or 2 % of the length) the better established one is kept
@@ -136,10 +135,13 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   let breaks: number[] = [];
   // every fit with breaks is a trial fit (no replicates; fitStudy `trial`); the one finally in use is finished
   // into the full fit once, at the end (completeTrial: same result as a refit, without redoing the search)
-  const tryAt = (at: number[], against: FitResult): FitResult => {
+  const trialFit = (at: number[]) => {
     const f = fitStudy(study, { seed, breaks: at, trial: true, assume: constraint });
+    return { f, applied: typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string' };
+  };
+  const tryAt = (at: number[], against: FitResult): FitResult => {
+    const { f, applied } = trialFit(at);
     const prev = against.report.refits.find((r) => r.used)?.relative_residual ?? against.report.relative_residual;
-    const applied = typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string';
     const used = applied && f.report.relative_residual <= prev;
     const earlier = against.report.refits.length ? against.report.refits : [{ constraint: 'none', relative_residual: against.report.relative_residual, used: true }];
     const entry = { constraint: refitLabel(constraint, at), relative_residual: applied ? f.report.relative_residual : prev, used };
@@ -195,12 +197,10 @@ function breakRefitsOn(study: Study, fitIn: FitResult, say: (m: string) => void,
   const level = `one-sided level ${alpha.toPrecision(2)}${sets.length > 1 ? ` (0.001 over ${sets.length} trial sets)` : ''}`;
   const testText = (c: ReturnType<typeof comparePredictions>) => `paired comparison of the prediction errors over ${c.experiments} experiments: z = ${c.z.toFixed(2)}, cross-validated loss ${c.relativeGain >= 0 ? 'lower' : 'higher'} by ${(100 * Math.abs(c.relativeGain)).toPrecision(2)} %`;
   const all = (extra: number[]) => [...breaks, ...extra].sort((p, q) => p - q);
-  // trial fits: the fitted kernel does not depend on the bootstrap replicates, so a trial is fitted without them
-  // (fitStudy `trial`: no replicates, no scaling test) and only the set finally kept is refitted in full
+  // the sets' trial fits carry their entry after the refits so far (the flags of the earlier ones are set at the end)
   const current = fit.report.refits.find((r) => r.used)?.relative_residual ?? fit.report.relative_residual;
   const tryBreaks = (at: number[]): FitResult => {
-    const f = fitStudy(study, { seed, breaks: at, trial: true, assume: constraint });
-    const applied = typeof (f.report.hyperparameters as Record<string, unknown>).breaks === 'string';
+    const { f, applied } = trialFit(at);
     const entry = { constraint: refitLabel(constraint, at), relative_residual: f.report.relative_residual, used: applied && f.report.relative_residual <= current };
     return { ...f, report: { ...f.report, refits: [...fit.report.refits, entry] } };
   };

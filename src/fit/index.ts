@@ -261,10 +261,6 @@ export interface RefitSpec {
 }
 
 /**
- * Structure-aware refit (the diagnosis calls it once it has established the structure). The refit is kept
- * only if its cross-validated residual is not larger than the previous fit's.
- */
-/**
  * The refit `refit(study, previous, { constraint, breaks })` would give, for a trial fit made with those
  * (fitStudy `trial`, no `fixed`): the trial's hyper-parameter search is finished with the bootstrap replicates
  * and the scaling test instead of being run again. The result is the same; a trial of another study or one
@@ -283,6 +279,10 @@ function sameBreaks(a?: readonly number[], b?: readonly number[]): boolean {
   return x.length === y.length && x.every((t, k) => t === y[k]);
 }
 
+/**
+ * Structure-aware refit (the diagnosis calls it once it has established the structure). The refit is kept
+ * only if its cross-validated residual is not larger than the previous fit's.
+ */
 export function refit(study: Study, previous: FitResult, constraint: 'symmetric' | 'translation' | RefitSpec): FitResult {
   const prep = prepare(study);
   const R = previous.noise.replicates.length || defaultReplicates(prep);

@@ -444,8 +444,7 @@ export function searchPath1d(prep: Prepared, sets: number[][], o: Path1dOptions)
 
 /** Replicates, truncation error and scaling test of a settled search (o.replicates = 0: none — a trial fit). */
 export function finishPath1d(s: Path1dSearch, o: Pick<Path1dOptions, 'rng' | 'replicates' | 'sigmaKnown' | 'progress' | 'scaling'>): CoreFit {
-  const { prep, sets, Kf, pieces, breaks, notes, constraint, basis, setup, systems, choices, fits, thetas, G, uh, sigma2, oscillatory, plainScore, deferredSkipped } = s;
-  const chosen = { searches: s.searches };
+  const { prep, sets, Kf, pieces, breaks, notes, constraint, basis, setup, systems, searches, choices, fits, thetas, G, uh, sigma2, oscillatory, plainScore, deferredSkipped } = s;
   const sigmaRep = sigma2.map((s2) => o.sigmaKnown ?? Math.sqrt(s2));
 
   // ---- parametric bootstrap. A replicate's data differ from the fit's by fresh noise ε on the measured
@@ -459,7 +458,7 @@ export function finishPath1d(s: Path1dSearch, o: Pick<Path1dOptions, 'rng' | 're
   const colsOut = prep.nOut * prep.cOut;
   const P0 = Kf * setup.F;
   // each replicate re-chooses the basis size among the neighbours of the chosen one and λ by GCV (selectionReplicates)
-  const repTheta = fits.map((f, p) => (R > 0 ? selectionReplicates(chosen.searches[p]!, systems[p]!, f, choices[p]!, constraint, Kf, prep.cIn, basis.degree, sigmaRep[p]!, R, o.rng) : []));
+  const repTheta = fits.map((f, p) => (R > 0 ? selectionReplicates(searches[p]!, systems[p]!, f, choices[p]!, constraint, Kf, prep.cIn, basis.degree, sigmaRep[p]!, R, o.rng) : []));
   const meanEps = Array.from({ length: R }, () => {
     const m = new Float64Array(colsOut);
     for (let c = 0; c < colsOut; c++) { const nJ = sets[c]!.length; m[c] = nJ > 0 ? (sigmaRep[Math.floor(c / prep.nOut)]! / Math.sqrt(nJ)) * o.rng.normal() : 0; }
@@ -495,7 +494,7 @@ export function finishPath1d(s: Path1dSearch, o: Pick<Path1dOptions, 'rng' | 're
     if (smaller.length < 2) return;
     const [t1, t2] = smaller as [typeof smaller[0], typeof smaller[0]];
     const sysP = systems[p]!;
-    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint, setup.degree, t.order === chosen.searches[p]!.order ? chosen.searches[p]!.spectra.get(t.K) : undefined).theta;
+    const at = (t: typeof t1) => solveKink(sysP, Kf, prep.cIn, { K: t.K, order: t.order, gcv: { lambda: t.lambda, gcv: t.gcv, rss: 0, dof: t.dof }, tried: [] }, constraint, setup.degree, t.order === searches[p]!.order ? searches[p]!.spectra.get(t.K) : undefined).theta;
     const G1 = zeros(prep.nOut, prep.nIn * prep.cIn), G2 = zeros(prep.nOut, prep.nIn * prep.cIn), G0 = zeros(prep.nOut, prep.nIn * prep.cIn);
     const put = (th: Float64Array, M: Mat) => { const full = zeros(prep.nOut * prep.cOut, prep.nIn * prep.cIn); kernelRows(prep, setup, th, p, full); M.data.set(full.data.subarray(p * prep.nOut * M.cols, (p + 1) * prep.nOut * M.cols)); };
     put(thetas[p]!, G0); put(at(t1), G1); put(at(t2), G2);
