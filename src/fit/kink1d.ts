@@ -224,7 +224,7 @@ function setupShared(prep: Prepared, basis: KinkBasis, J: number[]): KinkSetup {
   // centred responses per (component, sensor): Uc[c·nJ + n]
   const Uc = new Float64Array(nc * nJ);
   centreColumns(prep.U.data, colsOut, J, ubar, Uc);
-  for (let c = 0; c < nc; c++) { rowYY[c] = sumSquares(Uc, c * nJ, nJ); rowN[c] = nJ; }
+  for (let c = 0; c < nc; c++) { rowYY[c] = dotCols(Uc, c * nJ, Uc, c * nJ, nJ); rowN[c] = nJ; }
   // Z (nJ × KC, column-major: Zt[m·nJ + n]) and its mean-forcing counterpart zbar
   const Zt = new Float64Array(KC * nJ), zbar = new Float64Array(KC);
   for (let q = 0; q < cIn; q++) for (let k = 0; k < nIn; k++) accumulatePoint(Ac, fbar, Psi.data, q * nIn + k, k * Kmax, q * Kmax, Kmax, nJ, Zt, zbar);
@@ -249,7 +249,7 @@ function setupShared(prep: Prepared, basis: KinkBasis, J: number[]): KinkSetup {
       for (let q = 0; q < cIn; q++) {
         const col = q * nIn + k, ao = col * nJ;
         projectColumn(Lt, Zt, Ac, ao, KC, nJ, la, za);
-        sweepPoint(Psi.data, k * Kmax, q * Kmax, Kmax, KC, sumSquares(Ac, ao, nJ), la, za, A, B);
+        sweepPoint(Psi.data, k * Kmax, q * Kmax, Kmax, KC, dotCols(Ac, ao, Ac, ao, nJ), la, za, A, B);
         accumulatePoint(Ac, fbar, Psi.data, col, k * Kmax, q * Kmax, Kmax, nJ, Lt, lbar);
       }
       ptr++;
@@ -294,12 +294,6 @@ function centreColumns(data: Float64Array, cols: number, J: number[], mean: Floa
     const o = col * nJ;
     for (let n = 0; n < nJ; n++) out[o + n] = data[J[n]! * cols + col]! - m;
   }
-}
-
-function sumSquares(x: Float64Array, o: number, n: number): number {
-  let s = 0;
-  for (let k = 0; k < n; k++) s += x[o + k]! * x[o + k]!;
-  return s;
 }
 
 function dotCols(x: Float64Array, xo: number, y: Float64Array, yo: number, n: number): number {

@@ -115,7 +115,7 @@ export function makePiece(op: CompiledOde, l: number, r: number, n: number): Pie
   return { l, r, mid, x, w, D, av, ev, dev };
 }
 
-export function matvecSq(A: Float64Array, v: Float64Array, n: number): Float64Array {
+function matvecSq(A: Float64Array, v: Float64Array, n: number): Float64Array {
   const out = new Float64Array(n);
   for (let i = 0; i < n; i++) { let s = 0; for (let j = 0; j < n; j++) s += A[i * n + j]! * v[j]!; out[i] = s; }
   return out;

@@ -14,6 +14,7 @@
  * Pure numerics on row-major matrices; 1-D, co-located sorted points.
  */
 import type { Mat } from '../../linalg/dense.js';
+import { subMatrix, matmulTN, matvec } from '../../linalg/dense.js';
 import { normalCdf } from '../analysis.js';
 
 /**
@@ -203,39 +204,16 @@ export function locateKink(G: Mat, x: Float64Array, s: Float64Array, t0: number,
  * (each sum accumulated in index order).
  */
 function leadingLeftVector(G: Mat, rowsI: number[], cols: number[]): Float64Array {
-  const m = rowsI.length, k = cols.length, n = G.cols, g = G.data;
-  // the block, row-major, gathered once
-  const B = new Float64Array(m * k);
-  for (let a = 0; a < m; a++) for (let b = 0; b < k; b++) B[a * k + b] = g[rowsI[a]! * n + cols[b]!]!;
-  let u = new Float64Array(m).fill(1);
-  const v = new Float64Array(k), nu = new Float64Array(m);
+  const B = subMatrix(G, rowsI, cols);
+  let u = new Float64Array(rowsI.length).fill(1);
   for (let it = 0; it < 50; it++) {
-    blockTransposeTimes(B, m, k, u, v);
-    blockTimes(B, m, k, v, nu);
+    const v = matmulTN(B, { rows: B.rows, cols: 1, data: u }).data;
+    const nu = matvec(B, v);
     const nrm = Math.hypot(...nu);
     if (!(nrm > 0)) break;
     u = Float64Array.from(nu, (q) => q / nrm);
   }
   return u;
-}
-
-/** v = Bᵀ u, each v_b summed over a in order */
-function blockTransposeTimes(B: Float64Array, m: number, k: number, u: Float64Array, v: Float64Array): void {
-  for (let b = 0; b < k; b++) {
-    let acc = 0;
-    for (let a = 0; a < m; a++) acc += B[a * k + b]! * u[a]!;
-    v[b] = acc;
-  }
-}
-
-/** w = B v, each w_a summed over b in order */
-function blockTimes(B: Float64Array, m: number, k: number, v: Float64Array, w: Float64Array): void {
-  for (let a = 0; a < m; a++) {
-    let acc = 0;
-    const o = a * k;
-    for (let b = 0; b < k; b++) acc += B[o + b]! * v[b]!;
-    w[a] = acc;
-  }
 }
 
 function gaussPdf(z: number): number { return Math.exp(-0.5 * z * z) / Math.sqrt(2 * Math.PI); }
