@@ -73,9 +73,36 @@ function laplacianModes(kernel: Kernel, K: number): { Phi: Mat; lam: Float64Arra
   return { Phi, lam: Float64Array.from(use, (u) => u.lam) };
 }
 
+const COLUMN_EXPLANATION = 'With too few trustworthy singular values the spectral test cannot decide; the kernel is then called local only when two things hold together: its diagonal carries the jump of a finite-order differential operator, and away from the diagonal its columns solve one homogeneous equation with constant coefficients to within the noise — which the columns of an integral operator\'s kernel do not.';
+
+/**
+ * Locality without the spectrum (1-D): the Green's function of a differential operator L has a jump in a
+ * derivative of finite order at the diagonal, and away from it each column solves the homogeneous equation
+ * L G(·, s) = 0 (Coddington & Levinson 1955 ch. 7). A smooth integral kernel has neither; the kernel of an
+ * integro-differential operator L + K has the jump, but its columns solve L G + K G = 0, not a local equation.
+ * So local needs both: the order analysis decided from a positive diagonal signature (slope jump, or a
+ * scale-free jump of ∂x³G), and a constant-coefficient column family of the oscillation analysis explains the
+ * column segments to within the noise (its adequacy rule). Either alone is not enough: at high noise any family
+ * is adequate, and a fit can bend a smooth kernel at its diagonal. Confidence: the diagonal signature's.
+ */
+function columnsLocal(ctx: Context): { confidence: number; why: string } | null {
+  const ord = ctx.results['order']?.finding as Findings['order'] | undefined;
+  const osc = ctx.results['oscillation']?.finding as Findings['oscillation'] | undefined;
+  if (!ord || !osc || ord.estimate === null || ord['decay'] === 'exponential') return null;
+  const verdictOf = (v: unknown) => (v && typeof v === 'object' ? (v as { verdict?: unknown }).verdict : undefined);
+  const slope = verdictOf(ord['diagonal_kink']) === 'present', third = verdictOf(ord['third_derivative_jump']) === 'present';
+  if (!slope && !third) return null;
+  const second = osc['model_adequate'] === true, fourth = osc['fourth_order_adequate'] === true;
+  if (!second && !fourth) return null;
+  return {
+    confidence: ord.confidence,
+    why: `the diagonal carries ${slope ? 'a slope jump' : 'a jump of the third derivative at two window sizes'} (order ${ord.estimate}, confidence ${ord.confidence.toFixed(2)}) and the columns off the diagonal are explained within the noise by one ${second ? 'second' : 'fourth'}-order equation with constant coefficients`,
+  };
+}
+
 export const locality: Analysis<F> = {
   key: 'locality',
-  dependsOn: ['order'],
+  dependsOn: ['order', 'oscillation'],
   run(kernel: Kernel, ctx: Context): AnalysisOutput<F> {
     const explanation =
       'A differential operator only couples neighbouring points, so the inverse of its kernel is concentrated near the diagonal; an integral (non-local) operator couples distant points directly. ' +
@@ -90,6 +117,13 @@ export const locality: Analysis<F> = {
     const K = sp.trusted;
     const ref = K >= 6 ? laplacianModes(kernel, K) : null;
     if (K < 6 || !ref) {
+      const cols = K < 6 ? columnsLocal(ctx) : null;
+      if (cols) {
+        return {
+          finding: { verdict: 'local', confidence: round3(Math.min(cols.confidence, 0.99)), trustworthy_values: K, evidence_used: 'diagonal signature and column equation' },
+          evidence: { statistic: null, noise_floor: null, summary: `Only ${K} trustworthy singular values, too few for the spectral test; but ${cols.why}: local (the columns' equation holds to the noise, so a non-local part, if any, is below what the data resolve).`, explanation: explanation + ' ' + COLUMN_EXPLANATION },
+        };
+      }
       return { finding: { verdict: 'inconclusive', confidence: 0.5, trustworthy_values: K }, evidence: { statistic: null, noise_floor: null, summary: K < 6 ? `Only ${K} trustworthy singular values: too few to judge locality.` : 'Locality needs an interval or a box as domain.', explanation } };
     }
     const n = kernel.pointsIn.rows, P = kernel.pointsIn, dim = kernel.dimension;

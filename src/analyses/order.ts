@@ -146,15 +146,58 @@ export function decayFit(s: ArrayLike<number>, lo: number, hi: number): DecayFit
   return { exponent: -p.b, rate: -e.b, ssPower: p.ss, ssExp: e.ss, lo, hi };
 }
 
-/** Normalised slope jump |mean [∂xG]| / median max|∂xG| over interior columns (1-D, co-located; joint |t|-kink fit per column). */
-export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[]): { value: number; scale: number[] } {
+/** A place off the diagonal where G may itself bend or jump: an interface, or a break of the fitted basis. */
+export interface Cut { at: number; margin: number }
+
+/**
+ * The columns whose slope-jump window (half-width w) stays clear of every cut by its margin. The window fit
+ * assumes G smooth on either side of the diagonal; across an interface where a(x) jumps G bends for every
+ * source (a u′ is continuous, u′ is not), and a fit with its basis broken at a point may bend or jump there,
+ * so a window containing one would add that kink to the diagonal's.
+ */
+function clearOfCuts(s: readonly number[], w: number, cuts: readonly Cut[]): number[] {
+  const q: number[] = [];
+  s.forEach((v, i) => { if (!cuts.some((c) => Math.abs(v - c.at) <= w + c.margin)) q.push(i); });
+  return q;
+}
+
+/**
+ * The cuts known to the analysis. A kernel fitted here bends off the diagonal only where its basis is broken,
+ * so those breaks are the cuts (margin two grid cells); for a kernel from elsewhere, whose construction is
+ * unknown, the interfaces located with at least even odds stand in (margin two location uncertainties, as for
+ * the oscillation's regions; the interfaces analysis runs before this one).
+ */
+export function kinkCuts(kernel: Kernel, ctx: Context): Cut[] {
+  const x = kernel.pointsIn.data;
+  let lo = Infinity, hi = -Infinity;
+  for (const v of x) { lo = Math.min(lo, v); hi = Math.max(hi, v); }
+  const cell = (hi - lo) / Math.max(1, x.length - 1);
+  const h = ctx.fit?.hyperparameters;
+  if (h && typeof h['basis'] === 'string') {
+    return String(h['breaks'] ?? '').split(',').map(Number)
+      .filter((v) => Number.isFinite(v) && v > lo && v < hi).map((at) => ({ at, margin: 2 * cell }));
+  }
+  const cuts: Cut[] = [];
+  for (const i of (ctx.results['interfaces']?.finding as Findings['interfaces'] | undefined) ?? []) {
+    if (typeof i.location === 'number' && i.confidence >= 0.5) cuts.push({ at: i.location, margin: Math.max(2 * (Number.isFinite(i.uncertainty) ? i.uncertainty : 0), 2 * cell) });
+  }
+  return cuts;
+}
+
+/**
+ * Normalised slope jump |mean [∂xG]| / median max|∂xG| over interior columns clear of the cuts (1-D,
+ * co-located; joint |t|-kink fit per column). NaN when no column is clear.
+ */
+export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[], cuts: readonly Cut[] = []): { value: number; scale: number[] } {
   const fn = slopeJumpFunctionals(x);
-  const jump = applyJumpFunctionals(G, fn);
+  const use = clearOfCuts(fn.s, fn.halfWidth, cuts);
+  const all = applyJumpFunctionals(G, fn);
+  const jump = Float64Array.from(use, (q) => all[q]!);
   let sc = scale;
   if (!sc) {
     const n = x.length;
     const ord = Array.from({ length: n }, (_, i) => i).sort((a, b) => x[a]! - x[b]!);
-    sc = fn.idx.map((j) => {
+    sc = use.map((q) => fn.idx[q]!).map((j) => {
       let m = 0;
       for (let i = 1; i < n; i++) m = Math.max(m, Math.abs(G.data[ord[i]! * G.cols + j]! - G.data[ord[i - 1]! * G.cols + j]!) / (x[ord[i]!]! - x[ord[i - 1]!]!));
       return m || 1;
@@ -163,9 +206,10 @@ export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[]): { valu
   // pooled over columns: the jump has one sign along the whole diagonal (−1/a(s) < 0), so its mean
   // keeps the signal while the noise of many columns averages out
   const ms = median(sc);
+  if (!jump.length) return { value: NaN, scale: sc };
   let sum = 0;
   for (let q = 0; q < jump.length; q++) sum += jump[q]!;
-  return { value: Math.abs(sum / Math.max(1, jump.length)) / ms, scale: sc };
+  return { value: Math.abs(sum / jump.length) / ms, scale: sc };
 }
 
 /**
@@ -179,11 +223,17 @@ export function kinkStatistic(G: Mat, x: Float64Array, scale?: number[]): { valu
  * (difference 0 for a jump, 7·J(w) for the bias): |J(2w) − J(w)| with its one-sided 95 % margin
  * below the midpoint 3.5·|J(w)|.
  */
-export function thirdJumpStatistic(G: Mat, x: Float64Array, devs: Mat[]): { value: number; floor: number; wide: number; scaleFree: boolean } {
+export function thirdJumpStatistic(G: Mat, x: Float64Array, devs: Mat[], cuts: readonly Cut[] = []): { value: number; floor: number; wide: number; scaleFree: boolean } {
   const fn = slopeJumpFunctionals(x, undefined, 3);
   const fw = slopeJumpFunctionals(x, 2 * fn.halfWidth, 3);
-  const pooled = (M: Mat, f: typeof fn) => { const j = applyJumpFunctionals(M, f); let t = 0; for (let q = 0; q < j.length; q++) t += j[q]!; return j.length ? t / j.length : NaN; };
-  const j1 = pooled(G, fn), j2 = fw.idx.length ? pooled(G, fw) : NaN;
+  const useN = clearOfCuts(fn.s, fn.halfWidth, cuts), useW = clearOfCuts(fw.s, fw.halfWidth, cuts);
+  const pooled = (M: Mat, f: typeof fn) => {
+    const j = applyJumpFunctionals(M, f), use = f === fn ? useN : useW;
+    let t = 0;
+    for (const q of use) t += j[q]!;
+    return use.length ? t / use.length : NaN;
+  };
+  const j1 = pooled(G, fn), j2 = useW.length ? pooled(G, fw) : NaN;
   let f1 = 0, fd = 0;
   for (const D of devs) { const a = pooled(D, fn); f1 += a * a; fd += (pooled(D, fw) - a) ** 2; }
   const floor = devs.length ? Math.sqrt(f1 / devs.length) : NaN, floorDiff = devs.length ? Math.sqrt(fd / devs.length) : NaN;
@@ -199,6 +249,7 @@ function combine(pa: number, pb: number): number {
 
 export const order: Analysis<F> = {
   key: 'order',
+  dependsOn: ['interfaces'],
   run(kernel: Kernel, ctx: Context): AnalysisOutput<F> {
     const explanation =
       'How fast the singular values of the kernel fall off tells the order of the hidden operator: for a differential operator of order 2m in d dimensions they fall like k^(−2m/d) (Weyl\'s law), while a smooth integral kernel gives an exponential fall-off. ' +
@@ -240,14 +291,15 @@ export const order: Analysis<F> = {
     let kink: { value: number; floor: number; decision: string } | null = null;
     let third: { value: number; floor: number; decision: string; wide: number } | null = null;
     if (d === 1 && colocated(kernel) && kernel.components.in === 1 && kernel.components.out === 1) {
-      const ks = kinkStatistic(kernel.G, kernel.pointsIn.data);
+      const cuts = kinkCuts(kernel, ctx);
+      const ks = kinkStatistic(kernel.G, kernel.pointsIn.data, undefined, cuts);
       const devs = deviations(reps);
-      const fl = devs.length ? Math.sqrt(devs.reduce((s, dv) => s + kinkStatistic(dv, kernel.pointsIn.data, ks.scale).value ** 2, 0) / devs.length) : NaN;
+      const fl = devs.length ? Math.sqrt(devs.reduce((s, dv) => s + kinkStatistic(dv, kernel.pointsIn.data, ks.scale, cuts).value ** 2, 0) / devs.length) : NaN;
       const dk = decide(ks.value, fl, 0.05);
       kink = { value: ks.value, floor: fl, decision: dk.decision };
       if (dk.decision === 'present') { pSmooth2 = dk.confidence; diagonalDecides = true; }
       else if (dk.decision === 'absent') {
-        const t3 = thirdJumpStatistic(kernel.G, kernel.pointsIn.data, devs);
+        const t3 = thirdJumpStatistic(kernel.G, kernel.pointsIn.data, devs, cuts);
         const d3 = decide(t3.value, t3.floor, 0); // resolution 0: presence only (absence says nothing here)
         const decision = d3.decision === 'present' && !t3.scaleFree ? 'inconclusive' : d3.decision;
         third = { value: t3.value, floor: t3.floor, decision, wide: t3.wide };

@@ -18,12 +18,12 @@ import { regions } from './regions.js';
 export const analyses: Analysis<unknown>[] = [
   selfAdjoint as Analysis<unknown>,
   transport as Analysis<unknown>, // after self_adjoint
-  order as Analysis<unknown>,
-  locality as Analysis<unknown>, // after order (shares its spectrum)
   interfacesAnalysis as Analysis<unknown>,
+  order as Analysis<unknown>, // after interfaces (its diagonal windows avoid them)
   singularities as Analysis<unknown>,
   oscillation as Analysis<unknown>, // after order, transport, interfaces and singularities (column fits per region)
   screening as Analysis<unknown>,
+  locality as Analysis<unknown>, // after order (shares its spectrum) and oscillation (its column fits)
   coupling as Analysis<unknown>,
   translation as Analysis<unknown>, // after interfaces
   operatorAnalysis as Analysis<unknown>, // after order, self_adjoint and interfaces; before regions
