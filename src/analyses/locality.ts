@@ -81,8 +81,9 @@ const COLUMN_EXPLANATION = 'With too few trustworthy singular values the spectra
  * L G(·, s) = 0 (Coddington & Levinson 1955 ch. 7). A smooth integral kernel has neither; the kernel of an
  * integro-differential operator L + K has the jump, but its columns solve L G + K G = 0, not a local equation.
  * So local needs both: the order analysis decided from a positive diagonal signature (slope jump, or a
- * scale-free jump of ∂x³G), and a constant-coefficient column family of the oscillation analysis explains the
- * column segments to within the noise (its adequacy rule). Either alone is not enough: at high noise any family
+ * scale-free jump of ∂x³G), and a constant-coefficient column family of that order (the oscillation analysis's
+ * second-order family for order 2; for order 4 its fourth-order family, which nests it) explains the column
+ * segments to within the noise (its adequacy rule). Either alone is not enough: at high noise any family
  * is adequate, and a fit can bend a smooth kernel at its diagonal. Confidence: the diagonal signature's.
  */
 function columnsLocal(ctx: Context): { confidence: number; why: string } | null {
@@ -92,8 +93,9 @@ function columnsLocal(ctx: Context): { confidence: number; why: string } | null 
   const verdictOf = (v: unknown) => (v && typeof v === 'object' ? (v as { verdict?: unknown }).verdict : undefined);
   const slope = verdictOf(ord['diagonal_kink']) === 'present', third = verdictOf(ord['third_derivative_jump']) === 'present';
   if (!slope && !third) return null;
+  // the column equation must have the order the diagonal shows: two solutions for order 2, four for order 4
   const second = osc['model_adequate'] === true, fourth = osc['fourth_order_adequate'] === true;
-  if (!second && !fourth) return null;
+  if (ord.estimate === 2 ? !second : ord.estimate === 4 ? !(second || fourth) : true) return null;
   return {
     confidence: ord.confidence,
     why: `the diagonal carries ${slope ? 'a slope jump' : 'a jump of the third derivative at two window sizes'} (order ${ord.estimate}, confidence ${ord.confidence.toFixed(2)}) and the columns off the diagonal are explained within the noise by one ${second ? 'second' : 'fourth'}-order equation with constant coefficients`,

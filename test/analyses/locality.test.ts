@@ -1,6 +1,9 @@
 import { describe, it, expect } from 'vitest';
 import { order } from '../../src/analyses/order.js';
 import { locality } from '../../src/analyses/locality.js';
+import { oscillation } from '../../src/analyses/oscillation.js';
+import { selfAdjoint } from '../../src/analyses/selfAdjoint.js';
+import { transport } from '../../src/analyses/transport.js';
 import { kernel1d, laplace, helmholtz, clampedBeam } from '../helpers/closedForms.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
 
@@ -22,4 +25,30 @@ describe('locality', () => {
     const f = run((x, s) => Math.exp(-((x - s) ** 2) / 0.02), 0.001);
     expect(f.verdict).toBe('nonlocal');
   });
+  it('with fewer than 6 trustworthy values: the clamped beam is local from its diagonal jump and its cubic columns; −u″ too; a Gaussian is not (references (f1) Roark, from memory; (a) Stakgold & Holst)', () => {
+    // identified rank 4 caps the trustworthy count below the 6 the spectral index needs
+    const at = (g: Parameters<typeof kernel1d>[0]) => {
+      const { kernel, ctx } = noisy(kernel1d(g, 160), 0.001, 41);
+      ctx.fit = { coverage: { identified_rank: 4 } } as unknown as typeof ctx.fit;
+      for (const a of [selfAdjoint, transport, order, oscillation]) ctx.results[a.key] = (a as typeof order).run(kernel, ctx);
+      return { f: locality.run(kernel, ctx).finding, ord: ctx.results['order']!.finding as { estimate: number | null } };
+    };
+    const beam = at(clampedBeam); // u⁗ = δ: ∂x³G jumps by 1, columns are cubics off the diagonal
+    expect(beam.f.trustworthy_values).toBe(4);
+    expect(beam.ord.estimate).toBe(4);
+    expect(beam.f.verdict).toBe('local');
+    expect(beam.f.confidence as number).toBeGreaterThan(0.9);
+    const lap = at(laplace()); // slope jump −1, columns linear off the diagonal
+    expect(lap.f.verdict).toBe('local');
+    // exp(−((x−s)/0.15)²): no finite-order jump at the diagonal, and no constant-coefficient column equation
+    const gauss = at((x, s) => Math.exp(-(((x - s) / 0.15) ** 2)));
+    expect(gauss.f.verdict).not.toBe('local');
+    // −u″'s kernel plus a smooth non-local part: the slope jump is there (order 2), but the inverse of G_a + K is
+    // (I + L_a K)⁻¹ L_a, dense, and the columns solve no local equation off the diagonal: not called local
+    const lapG = laplace();
+    const mixed = at((x, s) => lapG(x, s) + 0.1 * Math.exp(-(((x - s) / 0.15) ** 2)));
+    expect(mixed.ord.estimate).toBe(2);
+    expect(mixed.f.verdict).not.toBe('local');
+  });
 });
+

@@ -1,5 +1,5 @@
 import { describe, it, expect } from 'vitest';
-import { order, kernelSpectrum, decayFit, thirdJumpStatistic } from '../../src/analyses/order.js';
+import { order, kernelSpectrum, decayFit, thirdJumpStatistic, kinkStatistic, kinkCuts } from '../../src/analyses/order.js';
 import { kernel1d, laplace, advdiff, screened, clampedBeam, simplyBeam, piecewise, sampleKernel, uniformGrid } from '../helpers/closedForms.js';
 import { slopeJumpFunctionals, applyJumpFunctionals, spectralNorm, sqrtWeighted, analysisRng } from '../../src/analyses/util/a_common.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
@@ -57,6 +57,35 @@ describe('order', () => {
     // screened −u″ + 25u (smooth off the diagonal): the same jump −1, to the quartic's accuracy
     const Gs = sampleKernel(screened(5), x);
     for (const v of applyJumpFunctionals(Gs, fn)) expect(Math.abs(v + 1)).toBeLessThan(1e-4);
+  });
+
+  it('the pooled slope jump skips windows that contain a cut: a = 1 | 10 at 0.4 gives the mean of −1/a(s) over the clear columns (Stakgold & Holst; references (e))', () => {
+    const n = 241;
+    const x = uniformGrid(n);
+    const G = sampleKernel(piecewise(1, 10, 0.4), x); // G bends at x = 0.4 for every source (a u′ continuous)
+    const fn = slopeJumpFunctionals(x);
+    const clear = fn.s.filter((s) => Math.abs(s - 0.4) > fn.halfWidth);
+    const want = clear.reduce((t, s) => t + 1 / (s < 0.4 ? 1 : 10), 0) / clear.length;
+    const ones = new Array(clear.length).fill(1);
+    const cut = kinkStatistic(G, x, ones, [{ at: 0.4, margin: 0 }]);
+    expect(Math.abs(cut.value - want)).toBeLessThan(1e-9);
+    // without the cut the windows across 0.4 add the interface's bend to the diagonal's jump
+    const all = kinkStatistic(G, x, new Array(fn.s.length).fill(1));
+    const wantAll = fn.s.reduce((t, s) => t + 1 / (s < 0.4 ? 1 : 10), 0) / fn.s.length;
+    expect(Math.abs(all.value - wantAll)).toBeGreaterThan(1e-3);
+    // no clear column: no statistic
+    expect(kinkStatistic(G, x, undefined, [{ at: 0.5, margin: 1 }]).value).toBeNaN();
+  });
+
+  it('the cuts: a kernel fitted here has its basis breaks; one from elsewhere has the interfaces located with even odds', () => {
+    const k = kernel1d(laplace(), 101);
+    const fitted = { noise: { replicates: [], homogeneousReplicates: [], source: 'bootstrap', assumption: '' }, rng: analysisRng(1), options: {}, results: { interfaces: { finding: [{ location: 0.2, uncertainty: 0.01, confidence: 0.9 }], evidence: {} } }, fit: { hyperparameters: { basis: 'piecewise-legendre', breaks: '0.3,0.7' } } } as unknown as Parameters<typeof kinkCuts>[1];
+    expect(kinkCuts(k, fitted).map((c) => c.at)).toEqual([0.3, 0.7]);
+    expect(kinkCuts(k, fitted)[0]!.margin).toBeCloseTo(0.02, 12); // two grid cells
+    const outside = { ...fitted, fit: undefined, results: { interfaces: { finding: [{ location: 0.2, uncertainty: 0.02, confidence: 0.9 }, { location: 0.6, uncertainty: 0.01, confidence: 0.3 }], evidence: {} } } } as unknown as Parameters<typeof kinkCuts>[1];
+    const c = kinkCuts(k, outside);
+    expect(c.map((q) => q.at)).toEqual([0.2]);
+    expect(c[0]!.margin).toBeCloseTo(0.04, 12);
   });
 
   it('third-derivative functionals give [∂x³G] = 1/e = 1 for both beams (u″″ = δ; references §2 (f1) clamped, (f2) simply supported; Roark, Butkovskiy, from memory)', () => {
