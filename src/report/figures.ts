@@ -321,7 +321,7 @@ export function localityFigure(F: Findings): SectionFigures {
   const p = plotOf(F, 'locality');
   const idx = num(p?.index), sd = num(p?.sd);
   if (idx === null) return none(F.locality?.applicable === false ? 'Locality is not tested for this kernel, so there is nothing to draw.'
-    : `The locality analysis reported no spread index${typeof F.locality?.trustworthy_values === 'number' ? ` (only ${F.locality.trustworthy_values} trustworthy singular values)` : ''}, so no figure is drawn.`);
+    : `The locality analysis reported no spread index${typeof F.locality?.trustworthy_values === 'number' ? ` (only ${F.locality.trustworthy_values} trustworthy singular values)` : ''}, so no figure is drawn.${F.locality?.evidence_used ? ' Its verdict rests on the jump at the diagonal and on the column equation; see the order and oscillation sections.' : ''}`);
   const layers: Layer[] = [];
   if (sd !== null) layers.push({ kind: 'band', name: 'index ± 2 × replicate spread', x: [idx - 2 * sd, idx + 2 * sd], lower: [-1, -1], upper: [1, 1], color: SERIES[0]! });
   layers.push({ kind: 'vrule', name: 'yardsticks', x: [0, 1], label: ['diffusion (local)', 'fully spread'], color: MUTED });
