@@ -71,27 +71,27 @@ export const cases: Case[] = [
   },
   {
     name: 'helmholtz-k15', family: 'wave', spec: 'c=-225', fast: true,
-    expect: { regions: [{ at: 0.5, character: 'wave' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'yes', wavenumber: 15, screening: 'no', interfaces: [], coefficients: { diffusion: 1, reaction: -225 } },
+    expect: { regions: [{ at: 0.5, character: 'wave' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'yes', wavenumber: 15, screening: 'no', interfaces: [], coefficients: { diffusion: 1, reaction: -225 } },
   },
   {
     name: 'screened-kappa10', family: 'screening', spec: 'c=100',
-    expect: { regions: [{ at: 0.5, character: 'reaction-diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, oscillation: 'no', screening: 'yes', screeningLength: 0.1, interfaces: [], coefficients: { diffusion: 1, reaction: 100 } },
+    expect: { regions: [{ at: 0.5, character: 'reaction-diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'yes', order: 2, locality: 'local', oscillation: 'no', screening: 'yes', screeningLength: 0.1, interfaces: [], coefficients: { diffusion: 1, reaction: 100 } },
   },
   {
     name: 'bar-one-interface', family: 'piecewise', spec: 'a=pw(1,0.4,10)',
-    expect: { regions: [{ at: 0.2, character: 'diffusion' }, { at: 0.7, character: 'diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
+    expect: { regions: [{ at: 0.2, character: 'diffusion' }, { at: 0.7, character: 'diffusion' }], self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', oscillation: 'no', interfaces: [0.4], profiles: [{ term: 'diffusion', truth: (x) => (x < 0.4 ? 1 : 10), label: '1 | 10 at 0.4', awayFrom: [0.4] }] },
   },
   {
     name: 'bar-two-interfaces', family: 'piecewise', spec: 'a=pw(1,0.3,4,0.7,1)',
-    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.3, 0.7] },
+    expect: { self_adjoint: 'yes', transport: 'none', translation_invariant: 'no', order: 2, locality: 'local', oscillation: 'no', interfaces: [0.3, 0.7] },
   },
   {
     name: 'diffusion-joined-to-belt', family: 'piecewise', spec: 'a=pw(1,0.55,0.05); b=pw(0,0.55,1)',
-    expect: { regions: [{ at: 0.25, character: 'diffusion' }, { at: 0.8, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.55] },
+    expect: { regions: [{ at: 0.25, character: 'diffusion' }, { at: 0.8, character: 'advection-diffusion' }], self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, locality: 'local', oscillation: 'no', interfaces: [0.55] },
   },
   {
     name: 'internal-layer', family: 'internal layer', spec: 'a=0.0005; b=2*(0.45-x); left=dirichlet(1); right=dirichlet(-1)',
-    expect: { self_adjoint: 'no', order: 2, oscillation: 'no', singularities: [0.45] },
+    expect: { self_adjoint: 'no', order: 2, locality: 'local', oscillation: 'no', singularities: [0.45] },
   },
   {
     name: 'clamped-beam', family: 'fourth order', spec: 'e=1', fast: true,
@@ -125,7 +125,7 @@ export const cases: Case[] = [
     // the demo's operator (examples/conveyor-oven/scenario.json): a belt carrying heat toward +x
     // between 0.3 and 0.7 in a uniformly conducting bar, ends held at 20 and 60
     name: 'conveyor-belt', family: 'piecewise', spec: 'a=0.05; b=pw(0,0.3,1,0.7,0); left=dirichlet(20); right=dirichlet(60)', count: 120, lengthScale: 0.05, amplitudes: [20, 40],
-    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, oscillation: 'no', interfaces: [0.3, 0.7] },
+    expect: { self_adjoint: 'no', transport: '+x', translation_invariant: 'no', order: 2, locality: 'local', oscillation: 'no', interfaces: [0.3, 0.7] },
   },
 ];
 

@@ -76,30 +76,47 @@ function laplacianModes(kernel: Kernel, K: number): { Phi: Mat; lam: Float64Arra
 const COLUMN_EXPLANATION = 'With too few trustworthy singular values the spectral test cannot decide; the kernel is then called local only when two things hold together: its diagonal carries the jump of a finite-order differential operator, and away from the diagonal its columns solve one homogeneous equation with constant coefficients to within the noise — which the columns of an integral operator\'s kernel do not.';
 
 /**
- * Locality without the spectrum (1-D): the Green's function of a differential operator L has a jump in a
- * derivative of finite order at the diagonal, and away from it each column solves the homogeneous equation
- * L G(·, s) = 0 (Coddington & Levinson 1955 ch. 7). A smooth integral kernel has neither; the kernel of an
- * integro-differential operator L + K has the jump, but its columns solve L G + K G = 0, not a local equation.
- * So local needs both: the order analysis decided from a positive diagonal signature (slope jump, or a
- * scale-free jump of ∂x³G), and a constant-coefficient column family of that order (the oscillation analysis's
- * second-order family for order 2; for order 4 its fourth-order family, which nests it) explains the column
- * segments to within the noise (its adequacy rule). Either alone is not enough: at high noise any family
- * is adequate, and a fit can bend a smooth kernel at its diagonal. Confidence: the diagonal signature's.
+ * The marks of a differential operator that need no spectrum (1-D): the Green's function of a differential
+ * operator L has a jump in a derivative of finite order at the diagonal, and away from it each column solves
+ * the homogeneous equation L G(·, s) = 0 (Coddington & Levinson 1955 ch. 7). A smooth integral kernel has
+ * neither; the kernel of an integro-differential operator L + K has the jump, but its columns solve
+ * L G + K G = 0, not a local equation. Both must hold: the order analysis found a positive diagonal signature
+ * (a slope jump, order 2; or a scale-free jump of ∂x³G, order 4), and the oscillation analysis's
+ * constant-coefficient column family of that order (its second-order family for order 2; for order 4 its
+ * fourth-order family, which nests it) explains the column segments to within the noise (its adequacy rule),
+ * on the whole domain or, for a medium with interfaces or internal layers, on every region between them
+ * (a piecewise-constant local operator).
+ * Either alone is not enough: at high noise any family is adequate, and a fit can bend a smooth kernel at its
+ * diagonal.
  */
-function columnsLocal(ctx: Context): { confidence: number; why: string } | null {
+function differentialMarks(ctx: Context): { order: 2 | 4; why: string } | null {
   const ord = ctx.results['order']?.finding as Findings['order'] | undefined;
   const osc = ctx.results['oscillation']?.finding as Findings['oscillation'] | undefined;
-  if (!ord || !osc || ord.estimate === null || ord['decay'] === 'exponential') return null;
+  if (!ord || !osc) return null;
   const verdictOf = (v: unknown) => (v && typeof v === 'object' ? (v as { verdict?: unknown }).verdict : undefined);
   const slope = verdictOf(ord['diagonal_kink']) === 'present', third = verdictOf(ord['third_derivative_jump']) === 'present';
   if (!slope && !third) return null;
-  // the column equation must have the order the diagonal shows: two solutions for order 2, four for order 4
-  const second = osc['model_adequate'] === true, fourth = osc['fourth_order_adequate'] === true;
-  if (ord.estimate === 2 ? !second : ord.estimate === 4 ? !(second || fourth) : true) return null;
+  const order = slope ? 2 : 4;
+  // the column equation must have the order the diagonal shows: two solutions for order 2, four for order 4;
+  // on the whole domain, or (a medium with interfaces or layers) on every region between them
+  const fits = (second: unknown, fourth: unknown) => (order === 2 ? second === true : second === true || fourth === true);
+  const regions = Array.isArray(osc['region_fits']) ? osc['region_fits'] as { bounds: number[]; model_adequate: unknown; fourth_order_adequate: unknown }[] : [];
+  const whole = fits(osc['model_adequate'], osc['fourth_order_adequate']);
+  const piecewise = !whole && regions.length > 0 && regions.every((r) => fits(r.model_adequate, r.fourth_order_adequate));
+  if (!whole && !piecewise) return null;
+  const family = `${order === 2 ? 'second' : 'fourth'}-order equation with constant coefficients`;
   return {
-    confidence: ord.confidence,
-    why: `the diagonal carries ${slope ? 'a slope jump' : 'a jump of the third derivative at two window sizes'} (order ${ord.estimate}, confidence ${ord.confidence.toFixed(2)}) and the columns off the diagonal are explained within the noise by one ${second ? 'second' : 'fourth'}-order equation with constant coefficients`,
+    order,
+    why: `the diagonal carries ${slope ? 'a slope jump' : 'a jump of the third derivative at two window sizes'} and the columns off the diagonal are explained within the noise by ${whole ? `one ${family}` : `a ${family} on each of the ${regions.length} regions between the interfaces and layers`}`,
   };
+}
+
+/** Locality with fewer than 6 trustworthy values: local when the differential marks hold and the order analysis decided that order from them. Confidence: the order's (the diagonal signature's). */
+function columnsLocal(ctx: Context): { confidence: number; why: string } | null {
+  const ord = ctx.results['order']?.finding as Findings['order'] | undefined;
+  const m = differentialMarks(ctx);
+  if (!ord || !m || ord.estimate !== m.order || ord['decay'] === 'exponential') return null;
+  return { confidence: ord.confidence, why: `${m.why} (order ${ord.estimate}, confidence ${ord.confidence.toFixed(2)})` };
 }
 
 export const locality: Analysis<F> = {
@@ -164,7 +181,12 @@ export const locality: Analysis<F> = {
     // singular values that fall exponentially mean the inverse is not a differential operator
     const ord = ctx.results['order']?.finding as Findings['order'] | undefined;
     const fp = ord?.['decay'] === 'exponential';
-    if (fp) { verdict = 'nonlocal'; confidence = 0.85; }
+    // exponential fall-off over the trusted range against the marks of a differential operator: over a short
+    // range of k an indefinite operator's sorted singular values (1/|λ_k| around a resonance) can fall like an
+    // exponential, so the two lines of evidence conflict and neither decides
+    const conflict = fp ? differentialMarks(ctx) : null;
+    if (fp && !conflict) { verdict = 'nonlocal'; confidence = 0.85; }
+    else if (conflict) { verdict = 'inconclusive'; confidence = 0.5; }
     else if (Number.isFinite(sd) && x + 2 * sd < 0.5 && pLocal >= 0.8) { verdict = 'local'; confidence = pLocal; }
     else if (Number.isFinite(sd) && x - 2 * sd > 0.5 && 1 - pLocal >= 0.8) { verdict = 'nonlocal'; confidence = 1 - pLocal; }
     return {
@@ -178,11 +200,12 @@ export const locality: Analysis<F> = {
         band_halfwidth: sig(band, 3),
         trustworthy_values: K,
         exponential_decay: fp,
+        ...(conflict ? { conflict: `exponential decay against a diagonal signature of order ${conflict.order} and its column equation` } : {}),
       },
       evidence: {
         statistic: sig(x, 3),
         noise_floor: sig(sd, 3),
-        summary: `Share of the resolved inverse farther than ${band.toPrecision(2)} from the diagonal: ${share.toPrecision(2)} (diffusion yardstick ${shareLocal.toPrecision(2)}, fully spread ${shareSpread.toPrecision(2)}; index ${x.toPrecision(2)}${Number.isFinite(sd) ? ` ± ${sd.toPrecision(2)}` : ''})${fp ? '; the singular values fall exponentially, which no finite-order differential operator does' : ''}: ${verdict === 'inconclusive' ? 'not decided' : verdict}.`,
+        summary: `Share of the resolved inverse farther than ${band.toPrecision(2)} from the diagonal: ${share.toPrecision(2)} (diffusion yardstick ${shareLocal.toPrecision(2)}, fully spread ${shareSpread.toPrecision(2)}; index ${x.toPrecision(2)}${Number.isFinite(sd) ? ` ± ${sd.toPrecision(2)}` : ''})${fp ? '; the singular values fall exponentially, which no finite-order differential operator does' : ''}${conflict ? `, but ${conflict.why}, as for a differential operator of order ${conflict.order}: the evidence conflicts` : ''}: ${verdict === 'inconclusive' ? 'not decided' : verdict}.`,
         explanation,
         plot: { kind: 'index', index: x, sd, reference_local: shareLocal, reference_spread: shareSpread, K },
       },

@@ -674,6 +674,7 @@ export const oscillation: Analysis<Findings['oscillation']> = {
         negative_eigenvalues: sign.trusted >= 6 ? sign.negatives : null,
         trustworthy_values: sign.trusted,
         votes: votes.map((v) => ({ by: v.by, decision: v.decision, confidence: v.confidence })),
+        region_fits: regionFits ? regionFits.map((r) => ({ bounds: [sig(r.bounds[0], 4), sig(r.bounds[1], 4)], model_adequate: r.lw.adequate, fourth_order_adequate: r.lw.fourth.adequate, decision: r.decision })) : null,
       },
       evidence: {
         statistic: lw ? sig(lw.theta, 4) : sign.negatives,

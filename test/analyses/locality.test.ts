@@ -4,7 +4,9 @@ import { locality } from '../../src/analyses/locality.js';
 import { oscillation } from '../../src/analyses/oscillation.js';
 import { selfAdjoint } from '../../src/analyses/selfAdjoint.js';
 import { transport } from '../../src/analyses/transport.js';
-import { kernel1d, laplace, helmholtz, clampedBeam } from '../helpers/closedForms.js';
+import { kernel1d, laplace, helmholtz, clampedBeam, piecewise } from '../helpers/closedForms.js';
+import { interfacesAnalysis } from '../../src/analyses/interfaces.js';
+import { singularities } from '../../src/analyses/singularities.js';
 import { noisy } from '../fixtures/anaA_ctx.js';
 
 function run(g: Parameters<typeof kernel1d>[0], rel: number) {
@@ -49,6 +51,35 @@ describe('locality', () => {
     const mixed = at((x, s) => lapG(x, s) + 0.1 * Math.exp(-(((x - s) / 0.15) ** 2)));
     expect(mixed.ord.estimate).toBe(2);
     expect(mixed.f.verdict).not.toBe('local');
+  });
+  it('exponential fall-off against a slope jump and a second-order column equation: the evidence conflicts, no verdict (Helmholtz k = 15, references (b) Duffy); a Gaussian with a (fitted) slope jump stays non-local', () => {
+    // the order analysis's decay call is replaced by `exponential`, as a short trusted range of an indefinite
+    // operator's sorted singular values 1/|k²π² − 225| can show it at noise 1; the slope jump is the kernel's own
+    const at = (g: Parameters<typeof kernel1d>[0]) => {
+      const { kernel, ctx } = noisy(kernel1d(g, 160), 0.001, 41);
+      for (const a of [selfAdjoint, transport, order, oscillation]) ctx.results[a.key] = (a as typeof order).run(kernel, ctx);
+      const o = ctx.results['order']!;
+      ctx.results['order'] = { ...o, finding: { ...(o.finding as object), decay: 'exponential', diagonal_kink: { verdict: 'present' } } };
+      return locality.run(kernel, ctx).finding;
+    };
+    const h = at(helmholtz(15));
+    expect(h.verdict).toBe('inconclusive');
+    expect(String(h.conflict)).toContain('order 2');
+    const gauss = at((x, s) => Math.exp(-(((x - s) / 0.15) ** 2))); // its columns solve no constant-coefficient equation
+    expect(gauss.verdict).toBe('nonlocal');
+    expect(gauss.conflict).toBeUndefined();
+  });
+  it('with fewer than 6 trustworthy values, a two-material bar is local from its slope jump and a column equation on each side of the interface (a = 1 | 10 at 0.4; Stakgold & Holst, references (e))', () => {
+    const { kernel, ctx } = noisy(kernel1d(piecewise(1, 10, 0.4), 160), 0.001, 41);
+    ctx.fit = { coverage: { identified_rank: 4 } } as unknown as typeof ctx.fit;
+    for (const a of [selfAdjoint, transport, interfacesAnalysis, order, singularities, oscillation]) ctx.results[a.key] = (a as typeof order).run(kernel, ctx);
+    const osc = ctx.results['oscillation']!.finding as { model_adequate: boolean; region_fits: { model_adequate: boolean }[] | null };
+    expect(osc.model_adequate).toBe(false); // a column across 0.4 bends there: no one equation on the whole bar
+    expect(osc.region_fits!.length).toBe(2);
+    expect(osc.region_fits!.every((r) => r.model_adequate)).toBe(true); // −a u″ = 0: linear on each side
+    const f = locality.run(kernel, ctx);
+    expect(f.finding.verdict).toBe('local');
+    expect(f.evidence.summary).toContain('each of the 2 regions');
   });
 });
 
